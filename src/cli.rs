@@ -1,0 +1,282 @@
+//! Command-line definitions: raw arguments become typed settings here, once.
+
+use crate::error::UsageError;
+use crate::import::{ChannelMap, ImportOptions};
+use crate::model::{ChannelKey, Connection, CurrentUnit, Ratings, VoltageUnit};
+use clap::{Args, Parser, Subcommand};
+use std::path::PathBuf;
+
+pub const CAUTION: &str = "Results support engineering judgement; they are not a certification. \
+The applicable grid code, the network operator and licensed professional practice decide.";
+
+#[derive(Parser, Debug)]
+#[command(
+    name = "holdfast",
+    version,
+    about = "Checks fault ride-through recordings of grid-connected generators against grid-code rule sets",
+    after_help = CAUTION
+)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum Command {
+    /// Show a recording's channels, units, sampling, and the disturbances and trips found in it.
+    Inspect(InspectArgs),
+    /// Write a synthetic recording of a specified dip and unit response (for demos and tests).
+    Synth(Box<SynthArgs>),
+}
+
+/// The unit's ratings (shared by `inspect` and the one-off `check`).
+#[derive(Args, Debug, Clone, Default)]
+pub struct RatingArgs {
+    /// Rated line-to-line RMS voltage Un, kV.
+    #[arg(long, value_name = "KV")]
+    pub rated_kv: Option<f64>,
+    /// Rated apparent power Sn, MVA.
+    #[arg(long, value_name = "MVA")]
+    pub rated_mva: Option<f64>,
+    /// Nominal frequency, Hz (50 or 60).
+    #[arg(long, value_name = "HZ")]
+    pub frequency: Option<f64>,
+}
+
+impl RatingArgs {
+    /// Ratings when both kV and MVA are given; checks values.
+    pub fn ratings(&self) -> Result<Option<Ratings>, UsageError> {
+        let check = |name: &str, v: f64| {
+            if v.is_finite() && v > 0.0 {
+                Ok(v)
+            } else {
+                Err(UsageError(format!(
+                    "{name} must be a positive number, got {v}"
+                )))
+            }
+        };
+        if let Some(f) = self.frequency {
+            check("--frequency", f)?;
+        }
+        match (self.rated_kv, self.rated_mva) {
+            (Some(kv), Some(mva)) => Ok(Some(Ratings {
+                rated_kv: check("--rated-kv", kv)?,
+                rated_mva: check("--rated-mva", mva)?,
+                frequency_hz: self.frequency.unwrap_or(f64::NAN),
+            })),
+            (None, None) => Ok(None),
+            (Some(_), None) => Err(UsageError("--rated-kv needs --rated-mva as well".into())),
+            (None, Some(_)) => Err(UsageError("--rated-mva needs --rated-kv as well".into())),
+        }
+    }
+}
+
+/// How recording columns map to channels.
+#[derive(Args, Debug, Clone, Default)]
+pub struct MapArgs {
+    /// Map a channel to a column: KEY=COLUMN, repeatable. Keys: time, va, vb, vc, ia, ib, ic,
+    /// v_pos, p, q, ip, iq, status. Columns named t/time, va, vb, vc, ia, ib, ic (any case)
+    /// are found without it.
+    #[arg(long = "map", value_name = "KEY=COLUMN")]
+    pub map: Vec<String>,
+    /// Unit of the voltage columns: V, kV or pu.
+    #[arg(long, value_name = "UNIT")]
+    pub voltage_unit: Option<String>,
+    /// Unit of the current columns: A, kA or pu.
+    #[arg(long, value_name = "UNIT")]
+    pub current_unit: Option<String>,
+    /// phase_to_neutral (default) or phase_to_phase (va, vb, vc then hold v_ab, v_bc, v_ca).
+    #[arg(long, value_name = "CONNECTION")]
+    pub voltage_connection: Option<String>,
+    /// Largest accepted deviation of a sample step from the nominal step, as a fraction.
+    #[arg(long, value_name = "FRACTION", default_value_t = 0.10)]
+    pub step_tolerance: f64,
+}
+
+impl MapArgs {
+    pub fn channel_map(&self) -> Result<ChannelMap, UsageError> {
+        let mut m = ChannelMap::default();
+        for item in &self.map {
+            let (k, col) = item.split_once('=').ok_or_else(|| {
+                UsageError(format!(
+                    "--map '{item}' is not KEY=COLUMN (e.g. --map va=U_L1)"
+                ))
+            })?;
+            if col.trim().is_empty() {
+                return Err(UsageError(format!("--map '{item}' names no column")));
+            }
+            if k.trim().eq_ignore_ascii_case("time") {
+                m.time = Some(col.trim().to_string());
+                continue;
+            }
+            let key = ChannelKey::parse(k).ok_or_else(|| {
+                UsageError(format!(
+                    "--map '{item}': unknown key '{k}'; keys are time, {}",
+                    ChannelKey::ALL.map(|k| k.name()).join(", ")
+                ))
+            })?;
+            m.keys.push((key, col.trim().to_string()));
+        }
+        if let Some(u) = &self.voltage_unit {
+            m.voltage_unit = Some(
+                VoltageUnit::parse(u)
+                    .ok_or_else(|| UsageError(format!("--voltage-unit '{u}': use V, kV or pu")))?,
+            );
+        }
+        if let Some(u) = &self.current_unit {
+            m.current_unit = Some(
+                CurrentUnit::parse(u)
+                    .ok_or_else(|| UsageError(format!("--current-unit '{u}': use A, kA or pu")))?,
+            );
+        }
+        if let Some(c) = &self.voltage_connection {
+            m.connection = Some(Connection::parse(c).ok_or_else(|| {
+                UsageError(format!(
+                    "--voltage-connection '{c}': use phase_to_neutral or phase_to_phase"
+                ))
+            })?);
+        }
+        Ok(m)
+    }
+
+    pub fn import_options(&self) -> Result<ImportOptions, UsageError> {
+        if !(self.step_tolerance > 0.0 && self.step_tolerance < 1.0) {
+            return Err(UsageError(
+                "--step-tolerance must be between 0 and 1".into(),
+            ));
+        }
+        Ok(ImportOptions {
+            step_tolerance: self.step_tolerance,
+        })
+    }
+}
+
+#[derive(Args, Debug)]
+pub struct InspectArgs {
+    /// Recording file (.csv).
+    pub recording: PathBuf,
+    #[command(flatten)]
+    pub ratings: RatingArgs,
+    #[command(flatten)]
+    pub map: MapArgs,
+    /// Voltage used to find disturbances: positive_sequence, min_phase_to_phase,
+    /// min_phase_to_neutral, max_phase_to_phase, max_phase_to_neutral.
+    #[arg(long, default_value = "positive_sequence", value_name = "VOLTAGE")]
+    pub applicable: String,
+    /// A disturbance starts below this voltage, pu.
+    #[arg(long, default_value_t = 0.90, value_name = "PU")]
+    pub below_pu: f64,
+    /// A disturbance starts above this voltage, pu.
+    #[arg(long, default_value_t = 1.10, value_name = "PU")]
+    pub above_pu: f64,
+    /// Print JSON instead of text.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Args, Debug)]
+pub struct SynthArgs {
+    /// Output file (CSV).
+    #[arg(long, short, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Rated line-to-line voltage, kV.
+    #[arg(long, default_value_t = 0.69)]
+    pub rated_kv: f64,
+    /// Rated apparent power, MVA.
+    #[arg(long, default_value_t = 4.2)]
+    pub rated_mva: f64,
+    /// Nominal frequency, Hz.
+    #[arg(long, default_value_t = 50.0)]
+    pub frequency: f64,
+    /// Sampling rate, Hz.
+    #[arg(long, default_value_t = 10_000.0)]
+    pub sample_rate: f64,
+    /// Recording length, s.
+    #[arg(long, default_value_t = 3.0)]
+    pub duration: f64,
+    /// Fault inception, s from the first sample.
+    #[arg(long, default_value_t = 1.0)]
+    pub fault_start: f64,
+    /// Fault duration, s.
+    #[arg(long, default_value_t = 0.5)]
+    pub fault_duration: f64,
+    /// Residual phase-to-neutral voltage of all phases during the fault, pu
+    /// (above 1 gives a swell).
+    #[arg(long, default_value_t = 0.2)]
+    pub residual: f64,
+    /// Per-phase residuals A,B,C in pu (overrides --residual), e.g. 0.3,1,1.
+    #[arg(long, value_name = "A,B,C")]
+    pub residuals: Option<String>,
+    /// Phase jump of the voltage during the fault, degrees.
+    #[arg(long, default_value_t = 0.0)]
+    pub phase_jump: f64,
+    /// Voltage after the fault, pu.
+    #[arg(long, default_value_t = 1.0)]
+    pub recovery: f64,
+    /// Pre-fault active power, pu.
+    #[arg(long, default_value_t = 0.8)]
+    pub p0: f64,
+    /// Pre-fault reactive power, pu (positive: over-excited).
+    #[arg(long, default_value_t = 0.0)]
+    pub q0: f64,
+    /// Reactive current gain k (extra Iq per pu of voltage deviation).
+    #[arg(long, default_value_t = 2.0)]
+    pub k_gain: f64,
+    /// Dead band of the voltage deviation, pu.
+    #[arg(long, default_value_t = 0.1)]
+    pub dead_band: f64,
+    /// offset: k·(|ΔV| − db); full: k·|ΔV| once outside the dead band.
+    #[arg(long, default_value = "offset")]
+    pub dead_band_mode: String,
+    /// First-order time constant of the current response, s.
+    #[arg(long, default_value_t = 0.01)]
+    pub iq_tau: f64,
+    /// Current limit, pu.
+    #[arg(long, default_value_t = 1.1)]
+    pub current_limit: f64,
+    /// Negative-sequence reactive current gain (inductive).
+    #[arg(long, default_value_t = 0.0)]
+    pub k2_gain: f64,
+    /// Active current recovery rate after the fault, pu/s.
+    #[arg(long, default_value_t = 5.0)]
+    pub p_ramp: f64,
+    /// The unit trips (current and status to zero) at this time, s.
+    #[arg(long)]
+    pub trip_at: Option<f64>,
+    /// Momentary cessation: current blocked from..to, s, e.g. 1.0,1.2.
+    #[arg(long, value_name = "FROM,TO")]
+    pub block: Option<String>,
+    /// Harmonics ORDER:AMPLITUDE_PU,..., e.g. 5:0.02,7:0.01.
+    #[arg(long, value_name = "LIST")]
+    pub harmonics: Option<String>,
+    /// Standard deviation of Gaussian noise on every channel, pu.
+    #[arg(long, default_value_t = 0.0)]
+    pub noise: f64,
+    /// Random seed for the noise.
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// waveform (va..ic) or rms (v_pos, p, q).
+    #[arg(long, default_value = "waveform")]
+    pub layout: String,
+    /// Voltage unit of the file: V, kV or pu.
+    #[arg(long, default_value = "V")]
+    pub voltage_unit: String,
+    /// Current unit of the file: A, kA or pu.
+    #[arg(long, default_value = "A")]
+    pub current_unit: String,
+    /// phase_to_neutral or phase_to_phase.
+    #[arg(long, default_value = "phase_to_neutral")]
+    pub voltage_connection: String,
+    /// Field delimiter: comma, semicolon or tab.
+    #[arg(long, default_value = "comma")]
+    pub delimiter: String,
+    /// Write numbers with a decimal comma (needs semicolon or tab delimiter).
+    #[arg(long)]
+    pub decimal_comma: bool,
+    /// seconds or iso (ISO-8601 timestamps).
+    #[arg(long, default_value = "seconds")]
+    pub time_format: String,
+    /// Add a status column (1 connected, 0 tripped).
+    #[arg(long)]
+    pub status: bool,
+}

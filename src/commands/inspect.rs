@@ -1,0 +1,320 @@
+//! `holdfast inspect`: what a recording holds and which disturbances it shows.
+
+use crate::analysis::events::{
+    detect_disturbances, detect_trip, ApplicableVoltage, Balance, DetectionSettings, Disturbance,
+    TripInfo, TripMethod,
+};
+use crate::analysis::{analyse, AnalysisSettings, POINTS_PER_CYCLE};
+use crate::cli::{InspectArgs, CAUTION};
+use crate::error::UsageError;
+use crate::import;
+use crate::model::{Block, FrameSink, RecordingInfo, RecordingKind};
+use anyhow::Context;
+use serde::Serialize;
+use std::io::Write;
+
+/// A sink that only lets the importer count and validate samples.
+struct Discard;
+
+impl FrameSink for Discard {
+    fn block(&mut self, _: &Block<'_>) {}
+}
+
+#[derive(Serialize)]
+struct AnalysisFacts {
+    frequency_hz: f64,
+    /// Samples in one DFT window (0 for RMS-level recordings).
+    dft_window_samples: usize,
+    /// Input samples per analysed point.
+    decimation: usize,
+    points: usize,
+}
+
+#[derive(Serialize)]
+struct InspectReport {
+    recording: RecordingInfo,
+    analysis: Option<AnalysisFacts>,
+    detection: Option<DetectionSettings>,
+    disturbances: Vec<Disturbance>,
+    trip: Option<TripInfo>,
+    notes: Vec<String>,
+    caution: &'static str,
+}
+
+pub fn run(args: &InspectArgs) -> anyhow::Result<u8> {
+    let map = args.map.channel_map()?;
+    let opts = args.map.import_options()?;
+    let ratings = args.ratings.ratings()?;
+    let applicable = ApplicableVoltage::parse(&args.applicable).ok_or_else(|| {
+        UsageError(format!(
+            "--applicable '{}': use one of {}",
+            args.applicable,
+            ApplicableVoltage::ALL.map(|a| a.name()).join(", ")
+        ))
+    })?;
+    if !(args.below_pu > 0.0 && args.below_pu < 1.0 && args.above_pu > 1.0) {
+        return Err(
+            UsageError("--below-pu must be in (0, 1) and --above-pu above 1".into()).into(),
+        );
+    }
+    let source = import::open(&args.recording, &map, &opts)?;
+    let frequency = args.ratings.frequency;
+    let needs_ratings = source
+        .info()
+        .channels
+        .iter()
+        .any(|c| c.canonical_unit == "V" || c.canonical_unit == "A");
+    let mut notes = Vec::new();
+    let report = if frequency.is_none() || (needs_ratings && ratings.is_none()) {
+        if frequency.is_none() {
+            notes.push(
+                "no analysis: give --frequency (50 or 60) to compute phasors and find disturbances"
+                    .to_string(),
+            );
+        }
+        if needs_ratings && ratings.is_none() {
+            notes.push(
+                "no analysis: channels are in V or A; give --rated-kv and --rated-mva for per unit"
+                    .to_string(),
+            );
+        }
+        let info = source.stream(&mut Discard)?;
+        InspectReport {
+            recording: info,
+            analysis: None,
+            detection: None,
+            disturbances: Vec::new(),
+            trip: None,
+            notes,
+            caution: CAUTION,
+        }
+    } else {
+        let f = frequency.unwrap_or(f64::NAN);
+        let settings = AnalysisSettings {
+            ratings: ratings.map(|mut r| {
+                r.frequency_hz = f;
+                r
+            }),
+            frequency_hz: f,
+            points_per_cycle: POINTS_PER_CYCLE,
+        };
+        let analysed = analyse(source, &settings)?;
+        let mut det = DetectionSettings::defaults(f);
+        det.applicable = applicable;
+        det.below_pu = args.below_pu;
+        det.above_pu = args.above_pu;
+        let disturbances = match detect_disturbances(&analysed.series, &det) {
+            Ok(d) => d,
+            Err(why) => {
+                notes.push(format!("no disturbance detection: {why}"));
+                Vec::new()
+            }
+        };
+        let trip = detect_trip(&analysed.series, &det);
+        InspectReport {
+            analysis: Some(AnalysisFacts {
+                frequency_hz: f,
+                dft_window_samples: analysed.dft_window,
+                decimation: analysed.decimation,
+                points: analysed.series.len(),
+            }),
+            recording: analysed.info,
+            detection: Some(det),
+            disturbances,
+            trip: Some(trip),
+            notes,
+            caution: CAUTION,
+        }
+    };
+    let stdout = std::io::stdout();
+    let mut out = stdout.lock();
+    if args.json {
+        serde_json::to_writer_pretty(&mut out, &report).context("writing JSON to stdout")?;
+        writeln!(out)?;
+    } else {
+        write_text(&mut out, &report)?;
+    }
+    Ok(0)
+}
+
+fn fmt_s(x: f64) -> String {
+    format!("{x:.4} s")
+}
+
+fn write_text(out: &mut dyn Write, r: &InspectReport) -> std::io::Result<()> {
+    let i = &r.recording;
+    let kind = match i.kind {
+        RecordingKind::Waveform => "instantaneous waveforms",
+        RecordingKind::RmsLevel => "RMS-level series",
+    };
+    writeln!(out, "recording   {}", i.path)?;
+    writeln!(out, "format      {} ({kind})", i.format)?;
+    for (k, v) in &i.header {
+        writeln!(out, "  {k:<20}{v}")?;
+    }
+    writeln!(
+        out,
+        "samples     {} at {:.6} Hz, duration {:.6} s (first time value {})",
+        i.samples, i.sample_rate_hz, i.duration_s, i.first_time
+    )?;
+    writeln!(
+        out,
+        "sampling    largest step deviation {:.3} % of the nominal step",
+        i.max_step_deviation * 100.0
+    )?;
+    if i.kind == RecordingKind::Waveform {
+        writeln!(out, "voltages    {}", i.connection.name())?;
+    }
+    writeln!(out, "channels")?;
+    writeln!(
+        out,
+        "  {:<8}{:<24}{:>6}  {:<8}{:>14}",
+        "key", "source", "index", "unit", "scale"
+    )?;
+    for c in &i.channels {
+        writeln!(
+            out,
+            "  {:<8}{:<24}{:>6}  {:<8}{:>14}",
+            c.key.name(),
+            c.source,
+            c.index,
+            format!("{}→{}", c.unit, c.canonical_unit),
+            format!("{:.6e}", c.scale)
+        )?;
+    }
+    if !i.unmapped.is_empty() {
+        writeln!(out, "unmapped    {}", i.unmapped.join(", "))?;
+    }
+    if let (Some(a), Some(d)) = (&r.analysis, &r.detection) {
+        if a.dft_window_samples > 0 {
+            writeln!(
+                out,
+                "analysis    one-cycle DFT at {} Hz over {} samples, one point every {} samples ({} points)",
+                a.frequency_hz, a.dft_window_samples, a.decimation, a.points
+            )?;
+        } else {
+            writeln!(
+                out,
+                "analysis    RMS-level values used as given ({} points)",
+                a.points
+            )?;
+        }
+        writeln!(
+            out,
+            "disturbances ({} voltage outside {:.3}..{:.3} pu): {}",
+            d.applicable.name().replace('_', " "),
+            d.below_pu,
+            d.above_pu,
+            if r.disturbances.is_empty() {
+                "none".to_string()
+            } else {
+                r.disturbances.len().to_string()
+            }
+        )?;
+        for (n, dist) in r.disturbances.iter().enumerate() {
+            let end = match dist.end_s {
+                Some(e) => format!(
+                    "end {}{}, duration {}",
+                    fmt_s(e),
+                    if dist.end_confirmed {
+                        ""
+                    } else {
+                        " (not confirmed before the recording ends)"
+                    },
+                    fmt_s(e - dist.start_s)
+                ),
+                None => "no end before the recording ends".to_string(),
+            };
+            writeln!(
+                out,
+                "  #{n} {}: start {}, {end}",
+                match dist.kind {
+                    crate::analysis::events::DisturbanceKind::Undervoltage => "undervoltage",
+                    crate::analysis::events::DisturbanceKind::Overvoltage => "overvoltage",
+                },
+                fmt_s(dist.start_s)
+            )?;
+            let balance = match dist.balance {
+                Balance::Symmetrical => "symmetrical",
+                Balance::Unbalanced => "unbalanced",
+                Balance::Undetermined => "balance undetermined",
+            };
+            writeln!(
+                out,
+                "     extreme {:.4} pu at {}; {balance}{}",
+                dist.extreme_pu,
+                fmt_s(dist.extreme_at_s),
+                dist.unbalance_ratio
+                    .map(|u| format!(" (|V2|/|V1| = {u:.4})"))
+                    .unwrap_or_default()
+            )?;
+            if let Some(res) = &dist.residual {
+                let mut s = format!("     residual V1 {:.4} pu", res.v1_pu);
+                if let Some(p) = res.phase_pu {
+                    s += &format!(", phase a/b/c {:.4}/{:.4}/{:.4} pu", p[0], p[1], p[2]);
+                }
+                if let Some(l) = res.line_pu {
+                    s += &format!(", ab/bc/ca {:.4}/{:.4}/{:.4} pu", l[0], l[1], l[2]);
+                }
+                writeln!(out, "{s}")?;
+            }
+            match (&dist.prefault, &dist.prefault_problem) {
+                (Some(p), _) => {
+                    let mut s = format!(
+                        "     pre-fault {}..{}: V {:.4} pu",
+                        fmt_s(p.from_s),
+                        fmt_s(p.to_s),
+                        p.v_pu
+                    );
+                    for (name, v) in [
+                        ("P", p.p_pu),
+                        ("Q", p.q_pu),
+                        ("Ip1", p.ip_pu),
+                        ("Iq1", p.iq_pu),
+                    ] {
+                        if let Some(v) = v {
+                            s += &format!(", {name} {v:.4} pu");
+                        }
+                    }
+                    writeln!(out, "{s}")?;
+                }
+                (None, Some(why)) => writeln!(out, "     pre-fault: none ({why})")?,
+                (None, None) => {}
+            }
+        }
+    }
+    if let Some(t) = &r.trip {
+        let how = match t.method {
+            TripMethod::Status => "from the status channel",
+            TripMethod::Current => "from the current",
+            TripMethod::None => "cannot be determined",
+        };
+        match (t.tripped, t.time_s) {
+            (true, Some(ts)) => {
+                write!(out, "trip        at {} ({how})", fmt_s(ts))?;
+                if let Some(rc) = t.reconnected_s {
+                    write!(out, ", status closed again at {}", fmt_s(rc))?;
+                }
+                writeln!(out)?;
+            }
+            _ => writeln!(out, "trip        none ({how})")?,
+        }
+        for (a, b) in &t.cessations {
+            writeln!(
+                out,
+                "cessation   current below threshold {}..{}",
+                fmt_s(*a),
+                fmt_s(*b)
+            )?;
+        }
+        if let Some(n) = &t.note {
+            writeln!(out, "            {n}")?;
+        }
+    }
+    for n in i.notes.iter().chain(&r.notes) {
+        writeln!(out, "note        {n}")?;
+    }
+    writeln!(out)?;
+    writeln!(out, "{CAUTION}")?;
+    Ok(())
+}

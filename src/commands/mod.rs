@@ -1,0 +1,15 @@
+//! One module per subcommand. Each takes typed arguments from [`crate::cli`]
+//! and returns the exit status (0, 1) or an error (exit status 2).
+
+pub mod inspect;
+pub mod synth;
+
+use crate::cli::{Cli, Command};
+
+/// Runs a parsed command line; `Ok` carries the exit status.
+pub fn run(cli: Cli) -> anyhow::Result<u8> {
+    match cli.command {
+        Command::Inspect(args) => inspect::run(&args),
+        Command::Synth(args) => synth::run(&args),
+    }
+}

@@ -1,0 +1,161 @@
+//! `holdfast synth`: write a synthetic recording of a specified dip.
+
+use crate::cli::SynthArgs;
+use crate::error::UsageError;
+use crate::model::{Connection, CurrentUnit, Ratings, VoltageUnit};
+use crate::synth::{write_csv, DeadBandMode, SynthLayout, SynthSpec, TimeFormat};
+use anyhow::Context;
+use std::io::{BufWriter, Write};
+
+fn list_f64(flag: &str, s: &str, n: usize) -> Result<Vec<f64>, UsageError> {
+    let v: Result<Vec<f64>, _> = s.split(',').map(|x| x.trim().parse::<f64>()).collect();
+    match v {
+        Ok(v) if v.len() == n && v.iter().all(|x| x.is_finite()) => Ok(v),
+        _ => Err(UsageError(format!(
+            "{flag} '{s}': expected {n} comma-separated numbers"
+        ))),
+    }
+}
+
+/// Turns the command-line arguments into a validated spec.
+pub fn spec_from_args(a: &SynthArgs) -> Result<SynthSpec, UsageError> {
+    let residual_pu = match &a.residuals {
+        Some(s) => {
+            let v = list_f64("--residuals", s, 3)?;
+            [v[0], v[1], v[2]]
+        }
+        None => [a.residual; 3],
+    };
+    let block = match &a.block {
+        Some(s) => {
+            let v = list_f64("--block", s, 2)?;
+            if v[1] <= v[0] {
+                return Err(UsageError(format!("--block '{s}': FROM must be before TO")));
+            }
+            Some((v[0], v[1]))
+        }
+        None => None,
+    };
+    let mut harmonics = Vec::new();
+    if let Some(h) = &a.harmonics {
+        for item in h.split(',').filter(|x| !x.trim().is_empty()) {
+            let bad = || {
+                UsageError(format!(
+                    "--harmonics item '{item}': expected ORDER:AMPLITUDE, e.g. 5:0.02"
+                ))
+            };
+            let (o, amp) = item.split_once(':').ok_or_else(bad)?;
+            let o: u32 = o.trim().parse().map_err(|_| bad())?;
+            let amp: f64 = amp.trim().parse().map_err(|_| bad())?;
+            if o < 2 || !amp.is_finite() || amp < 0.0 {
+                return Err(bad());
+            }
+            harmonics.push((o, amp));
+        }
+    }
+    let dead_band_mode = match a.dead_band_mode.as_str() {
+        "offset" => DeadBandMode::Offset,
+        "full" => DeadBandMode::Full,
+        o => {
+            return Err(UsageError(format!(
+                "--dead-band-mode '{o}': use offset or full"
+            )))
+        }
+    };
+    let layout = match a.layout.as_str() {
+        "waveform" => SynthLayout::Waveform,
+        "rms" => SynthLayout::Rms,
+        o => return Err(UsageError(format!("--layout '{o}': use waveform or rms"))),
+    };
+    let delimiter = match a.delimiter.as_str() {
+        "comma" | "," => b',',
+        "semicolon" | ";" => b';',
+        "tab" => b'\t',
+        o => {
+            return Err(UsageError(format!(
+                "--delimiter '{o}': use comma, semicolon or tab"
+            )))
+        }
+    };
+    let time_format = match a.time_format.as_str() {
+        "seconds" => TimeFormat::Seconds,
+        "iso" => TimeFormat::Iso,
+        o => {
+            return Err(UsageError(format!(
+                "--time-format '{o}': use seconds or iso"
+            )))
+        }
+    };
+    let voltage_unit = VoltageUnit::parse(&a.voltage_unit).ok_or_else(|| {
+        UsageError(format!(
+            "--voltage-unit '{}': use V, kV or pu",
+            a.voltage_unit
+        ))
+    })?;
+    let current_unit = CurrentUnit::parse(&a.current_unit).ok_or_else(|| {
+        UsageError(format!(
+            "--current-unit '{}': use A, kA or pu",
+            a.current_unit
+        ))
+    })?;
+    let connection = Connection::parse(&a.voltage_connection).ok_or_else(|| {
+        UsageError(format!(
+            "--voltage-connection '{}': use phase_to_neutral or phase_to_phase",
+            a.voltage_connection
+        ))
+    })?;
+    let spec = SynthSpec {
+        ratings: Ratings {
+            rated_kv: a.rated_kv,
+            rated_mva: a.rated_mva,
+            frequency_hz: a.frequency,
+        },
+        sample_rate_hz: a.sample_rate,
+        duration_s: a.duration,
+        fault_start_s: a.fault_start,
+        fault_duration_s: a.fault_duration,
+        residual_pu,
+        phase_jump_deg: a.phase_jump,
+        recovery_pu: a.recovery,
+        p0_pu: a.p0,
+        q0_pu: a.q0,
+        k_gain: a.k_gain,
+        dead_band_pu: a.dead_band,
+        dead_band_mode,
+        iq_tau_s: a.iq_tau,
+        current_limit_pu: a.current_limit,
+        k2_gain: a.k2_gain,
+        p_ramp_pu_per_s: a.p_ramp,
+        trip_at_s: a.trip_at,
+        block,
+        harmonics,
+        noise_pu: a.noise,
+        seed: a.seed,
+        layout,
+        voltage_unit,
+        current_unit,
+        connection,
+        delimiter,
+        decimal_comma: a.decimal_comma,
+        time_format,
+        status_column: a.status,
+    };
+    spec.validate().map_err(UsageError)?;
+    Ok(spec)
+}
+
+pub fn run(args: &SynthArgs) -> anyhow::Result<u8> {
+    let spec = spec_from_args(args)?;
+    if let Some(dir) = args.out.parent().filter(|d| !d.as_os_str().is_empty()) {
+        std::fs::create_dir_all(dir)
+            .with_context(|| format!("creating directory {}", dir.display()))?;
+    }
+    let file = std::fs::File::create(&args.out)
+        .with_context(|| format!("creating {}", args.out.display()))?;
+    let mut w = BufWriter::with_capacity(1 << 20, file);
+    let n = write_csv(&spec, &mut w).with_context(|| format!("writing {}", args.out.display()))?;
+    w.flush()
+        .with_context(|| format!("writing {}", args.out.display()))?;
+    eprintln!("wrote {} ({n} samples)", args.out.display());
+    Ok(0)
+}

@@ -1,0 +1,990 @@
+//! CSV importer: delimited text with a header row.
+//!
+//! * delimiter `,` `;` or tab, detected from the header row;
+//! * decimal comma, detected when the delimiter is not a comma and the first
+//!   data row holds commas;
+//! * optional UTF-8 byte-order mark, LF or CRLF line ends, quoted fields;
+//! * time as seconds or as ISO-8601 timestamps (converted to seconds from
+//!   the first sample);
+//! * voltages in V, kV or pu, phase-to-neutral or phase-to-phase; currents in
+//!   A, kA or pu.
+//!
+//! The file is read in chunks; each chunk is split at line boundaries and its
+//! parts are parsed on all cores into reusable column buffers (no allocation
+//! per value), then checked for time order and even sampling and handed to
+//! the sink in order. Memory stays bounded by the chunk size whatever the
+//! file size.
+
+use super::{check_channel_set, ChannelMap, ImportOptions, Source};
+use crate::error::InputError;
+use crate::model::{
+    Block, ChannelInfo, ChannelKey, Connection, CurrentUnit, FrameSink, RecordingInfo,
+    RecordingKind, VoltageUnit, N_KEYS,
+};
+use chrono::{DateTime, FixedOffset, NaiveDateTime};
+use std::fs::File;
+use std::io::Read;
+use std::path::{Path, PathBuf};
+
+/// Bytes read per chunk.
+const CHUNK: usize = 4 << 20;
+/// Data rows used to estimate the nominal sample step at open.
+const STEP_ESTIMATE_ROWS: usize = 10_000;
+/// Regions smaller than this are parsed on one thread.
+const PARALLEL_MIN: usize = 256 << 10;
+/// Column slot marker: column not used.
+const SKIP: u16 = u16::MAX;
+/// Column slot marker: the time column.
+const TIME: u16 = u16::MAX - 1;
+
+#[derive(Clone, Debug)]
+enum TimeKind {
+    Seconds,
+    /// ISO-8601 timestamps; values are seconds from this origin.
+    Timestamp(DateTime<FixedOffset>),
+}
+
+/// What the parsers need to know about the layout; shared by all threads.
+#[derive(Clone, Debug)]
+struct Layout {
+    delim: u8,
+    decimal_comma: bool,
+    ncols: usize,
+    /// Per file column: [`SKIP`], [`TIME`] or the index of a mapped channel.
+    col_slot: Vec<u16>,
+    /// Per mapped channel: factor to canonical units.
+    scale: Vec<f64>,
+    time: TimeKind,
+}
+
+/// Parsed values of one part of a chunk, column-wise.
+#[derive(Default, Debug)]
+struct Part {
+    time: Vec<f64>,
+    cols: Vec<Vec<f64>>,
+    /// Lines consumed, including trailing blank lines.
+    lines: u64,
+    /// First of the blank lines that end the part, if any.
+    trailing_blank: Option<u64>,
+}
+
+impl Part {
+    fn reset(&mut self, nslots: usize) {
+        self.time.clear();
+        self.cols.resize_with(nslots, Vec::new);
+        for c in &mut self.cols {
+            c.clear();
+        }
+        self.lines = 0;
+        self.trailing_blank = None;
+    }
+}
+
+#[derive(Debug, Clone, PartialEq)]
+enum RowProblem {
+    NotNumber { col: usize, text: String },
+    NotFinite { col: usize, text: String },
+    BadTimestamp { col: usize, text: String },
+    TooFewFields { have: usize },
+    TooManyFields,
+    BlankLine,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+struct PartError {
+    /// Zero-based line within the part.
+    line: u64,
+    problem: RowProblem,
+}
+
+/// An opened CSV recording.
+pub struct CsvSource {
+    path: PathBuf,
+    file: File,
+    /// Unprocessed bytes, starting at the first data line.
+    buf: Vec<u8>,
+    eof: bool,
+    layout: Layout,
+    /// One-based line number of the first data line (after the header).
+    first_data_line: u64,
+    nominal_step: f64,
+    opts: ImportOptions,
+    info: RecordingInfo,
+    slot_keys: Vec<ChannelKey>,
+    header: Vec<String>,
+}
+
+fn fill(file: &mut File, buf: &mut Vec<u8>, want: usize, path: &Path) -> Result<bool, InputError> {
+    // Returns true at end of file.
+    let start = buf.len();
+    buf.resize(start + want, 0);
+    let mut filled = start;
+    while filled < buf.len() {
+        match file.read(&mut buf[filled..]) {
+            Ok(0) => {
+                buf.truncate(filled);
+                return Ok(true);
+            }
+            Ok(n) => filled += n,
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+            Err(e) => {
+                return Err(InputError::new(path, format!("cannot read: {e}")));
+            }
+        }
+    }
+    Ok(false)
+}
+
+fn trim_bytes(mut b: &[u8]) -> &[u8] {
+    while let [first, rest @ ..] = b {
+        if *first == b' ' || *first == b'\t' {
+            b = rest;
+        } else {
+            break;
+        }
+    }
+    while let [rest @ .., last] = b {
+        if *last == b' ' || *last == b'\t' {
+            b = rest;
+        } else {
+            break;
+        }
+    }
+    b
+}
+
+fn strip_quotes(b: &[u8]) -> &[u8] {
+    let b = trim_bytes(b);
+    if b.len() >= 2 && b[0] == b'"' && b[b.len() - 1] == b'"' {
+        &b[1..b.len() - 1]
+    } else {
+        b
+    }
+}
+
+/// Splits a line at `delim`, honouring double quotes.
+fn split_fields(line: &[u8], delim: u8) -> Vec<&[u8]> {
+    let mut out = Vec::new();
+    let mut start = 0;
+    let mut quoted = false;
+    for (i, &c) in line.iter().enumerate() {
+        if c == b'"' {
+            quoted = !quoted;
+        } else if c == delim && !quoted {
+            out.push(&line[start..i]);
+            start = i + 1;
+        }
+    }
+    out.push(&line[start..]);
+    out
+}
+
+fn count_outside_quotes(line: &[u8], c: u8) -> usize {
+    let mut quoted = false;
+    let mut n = 0;
+    for &b in line {
+        if b == b'"' {
+            quoted = !quoted;
+        } else if b == c && !quoted {
+            n += 1;
+        }
+    }
+    n
+}
+
+fn parse_timestamp(s: &str) -> Option<DateTime<FixedOffset>> {
+    let s = s.trim();
+    if let Ok(t) = DateTime::parse_from_rfc3339(s) {
+        return Some(t);
+    }
+    for fmt in [
+        "%Y-%m-%dT%H:%M:%S%.f",
+        "%Y-%m-%d %H:%M:%S%.f",
+        "%Y-%m-%dT%H:%M:%S",
+        "%Y-%m-%d %H:%M:%S",
+    ] {
+        if let Ok(t) = NaiveDateTime::parse_from_str(s, fmt) {
+            return Some(t.and_utc().fixed_offset());
+        }
+    }
+    None
+}
+
+fn is_blank(line: &[u8]) -> bool {
+    line.iter().all(|b| b.is_ascii_whitespace())
+}
+
+/// Parses one field as a number; returns the value and the end of the field.
+#[inline]
+fn number_field(line: &[u8], start: usize, layout: &Layout) -> Result<(f64, usize), ()> {
+    let delim = layout.delim;
+    if layout.decimal_comma {
+        let end = memchr::memchr(delim, &line[start..])
+            .map(|i| start + i)
+            .unwrap_or(line.len());
+        let field = strip_quotes(&line[start..end]);
+        let mut tmp = [0u8; 64];
+        if field.is_empty() || field.len() > tmp.len() {
+            return Err(());
+        }
+        for (d, s) in tmp.iter_mut().zip(field) {
+            *d = if *s == b',' { b'.' } else { *s };
+        }
+        let v: f64 = fast_float2::parse(&tmp[..field.len()]).map_err(|_| ())?;
+        return Ok((v, end));
+    }
+    let mut p = start;
+    while p < line.len() && line[p] == b' ' {
+        p += 1;
+    }
+    let quoted = p < line.len() && line[p] == b'"';
+    if quoted {
+        p += 1;
+    }
+    let (v, n): (f64, usize) = fast_float2::parse_partial(&line[p..]).map_err(|_| ())?;
+    p += n;
+    if quoted {
+        if p < line.len() && line[p] == b'"' {
+            p += 1;
+        } else {
+            return Err(());
+        }
+    }
+    while p < line.len() && line[p] == b' ' {
+        p += 1;
+    }
+    if p == line.len() || line[p] == delim {
+        Ok((v, p))
+    } else {
+        Err(())
+    }
+}
+
+fn field_text(line: &[u8], start: usize, delim: u8) -> String {
+    let end = memchr::memchr(delim, &line[start..])
+        .map(|i| start + i)
+        .unwrap_or(line.len());
+    String::from_utf8_lossy(trim_bytes(&line[start..end])).into_owned()
+}
+
+fn parse_line(line: &[u8], layout: &Layout, part: &mut Part) -> Result<(), RowProblem> {
+    let mut pos = 0usize;
+    let mut col = 0usize;
+    loop {
+        if col >= layout.ncols {
+            return Err(RowProblem::TooManyFields);
+        }
+        let slot = layout.col_slot[col];
+        let end = if slot == SKIP {
+            memchr::memchr(layout.delim, &line[pos..])
+                .map(|i| pos + i)
+                .unwrap_or(line.len())
+        } else if slot == TIME {
+            match &layout.time {
+                TimeKind::Seconds => match number_field(line, pos, layout) {
+                    Ok((v, end)) if v.is_finite() => {
+                        part.time.push(v);
+                        end
+                    }
+                    Ok(_) => {
+                        return Err(RowProblem::NotFinite {
+                            col,
+                            text: field_text(line, pos, layout.delim),
+                        })
+                    }
+                    Err(()) => {
+                        return Err(RowProblem::NotNumber {
+                            col,
+                            text: field_text(line, pos, layout.delim),
+                        })
+                    }
+                },
+                TimeKind::Timestamp(origin) => {
+                    let end = memchr::memchr(layout.delim, &line[pos..])
+                        .map(|i| pos + i)
+                        .unwrap_or(line.len());
+                    let text = String::from_utf8_lossy(strip_quotes(&line[pos..end]));
+                    match parse_timestamp(&text) {
+                        Some(t) => {
+                            let d = t.signed_duration_since(*origin);
+                            let secs = d.num_seconds() as f64 + (d.subsec_nanos() as f64) * 1e-9;
+                            part.time.push(secs);
+                        }
+                        None => {
+                            return Err(RowProblem::BadTimestamp {
+                                col,
+                                text: text.into_owned(),
+                            })
+                        }
+                    }
+                    end
+                }
+            }
+        } else {
+            match number_field(line, pos, layout) {
+                Ok((v, end)) if v.is_finite() => {
+                    part.cols[slot as usize].push(v * layout.scale[slot as usize]);
+                    end
+                }
+                Ok(_) => {
+                    return Err(RowProblem::NotFinite {
+                        col,
+                        text: field_text(line, pos, layout.delim),
+                    })
+                }
+                Err(()) => {
+                    return Err(RowProblem::NotNumber {
+                        col,
+                        text: field_text(line, pos, layout.delim),
+                    })
+                }
+            }
+        };
+        col += 1;
+        if end >= line.len() {
+            break;
+        }
+        pos = end + 1;
+    }
+    if col < layout.ncols {
+        return Err(RowProblem::TooFewFields { have: col });
+    }
+    Ok(())
+}
+
+/// Parses a region of complete lines into `part`.
+fn parse_region(region: &[u8], layout: &Layout, part: &mut Part) -> Result<(), PartError> {
+    let mut start = 0usize;
+    let mut line_no = 0u64;
+    let mut blank_at: Option<u64> = None;
+    while start < region.len() {
+        let end = memchr::memchr(b'\n', &region[start..])
+            .map(|i| start + i)
+            .unwrap_or(region.len());
+        let mut line = &region[start..end];
+        if let [rest @ .., b'\r'] = line {
+            line = rest;
+        }
+        if line.is_empty() || is_blank(line) {
+            blank_at.get_or_insert(line_no);
+        } else {
+            if let Some(b) = blank_at {
+                return Err(PartError {
+                    line: b,
+                    problem: RowProblem::BlankLine,
+                });
+            }
+            if let Err(problem) = parse_line(line, layout, part) {
+                // Keep the columns aligned for the caller's sake.
+                return Err(PartError {
+                    line: line_no,
+                    problem,
+                });
+            }
+        }
+        line_no += 1;
+        start = end + 1;
+    }
+    part.lines = line_no;
+    // Blank lines at the end of a part are fine only at the end of the file;
+    // the caller checks that no data follows.
+    part.trailing_blank = blank_at;
+    Ok(())
+}
+
+/// Splits `region` into up to `n` pieces at line boundaries.
+fn split_at_lines(region: &[u8], n: usize) -> Vec<&[u8]> {
+    if n <= 1 || region.len() < PARALLEL_MIN {
+        return vec![region];
+    }
+    let mut pieces = Vec::with_capacity(n);
+    let mut start = 0;
+    for k in 1..n {
+        let target = region.len() * k / n;
+        if target <= start {
+            continue;
+        }
+        match memchr::memchr(b'\n', &region[target..]) {
+            Some(i) => {
+                let cut = target + i + 1;
+                pieces.push(&region[start..cut]);
+                start = cut;
+            }
+            None => break,
+        }
+    }
+    pieces.push(&region[start..]);
+    pieces
+}
+
+impl CsvSource {
+    pub fn open(path: &Path, map: &ChannelMap, opts: &ImportOptions) -> Result<Self, InputError> {
+        let mut file = File::open(path).map_err(|e| {
+            InputError::new(path, format!("cannot open recording: {e}"))
+                .hint("check the path (plan paths are relative to the plan file)")
+        })?;
+        let mut buf = Vec::new();
+        let mut eof = fill(&mut file, &mut buf, 1 << 20, path)?;
+        // The header and the rows used to estimate the step must be complete.
+        while !eof && memchr::memchr_iter(b'\n', &buf).count() <= STEP_ESTIMATE_ROWS + 1 {
+            if buf.len() >= 64 << 20 {
+                break;
+            }
+            eof = fill(&mut file, &mut buf, 1 << 20, path)?;
+        }
+        if buf.starts_with(&[0xEF, 0xBB, 0xBF]) {
+            buf.drain(..3);
+        }
+        if buf.iter().all(|b| b.is_ascii_whitespace()) {
+            return Err(InputError::new(path, "the file is empty")
+                .hint("a recording needs a header row and at least two data rows"));
+        }
+        let header_end = memchr::memchr(b'\n', &buf).unwrap_or(buf.len());
+        let mut header_line = &buf[..header_end];
+        if let [rest @ .., b'\r'] = header_line {
+            header_line = rest;
+        }
+        let delim = [b',', b';', b'\t']
+            .into_iter()
+            .max_by_key(|d| (count_outside_quotes(header_line, *d), *d == b','))
+            .unwrap_or(b',');
+        let header: Vec<String> = split_fields(header_line, delim)
+            .into_iter()
+            .map(|f| String::from_utf8_lossy(strip_quotes(f)).trim().to_string())
+            .collect();
+        let ncols = header.len();
+        if ncols < 2 {
+            return Err(InputError::new(
+                path,
+                "the header row has a single column; no delimiter (',' ';' or tab) was found",
+            )
+            .line(1)
+            .hint("the first line must name the columns, e.g. t,va,vb,vc,ia,ib,ic"));
+        }
+        if header.iter().any(|h| h.is_empty()) {
+            let i = header.iter().position(|h| h.is_empty()).unwrap_or(0);
+            return Err(
+                InputError::new(path, format!("column {} has no name", i + 1))
+                    .line(1)
+                    .hint("give every column a name in the header row"),
+            );
+        }
+
+        // Resolve the mapping.
+        let find = |name: &str| -> Result<usize, InputError> {
+            let hits: Vec<usize> = header
+                .iter()
+                .enumerate()
+                .filter(|(_, h)| h.eq_ignore_ascii_case(name.trim()))
+                .map(|(i, _)| i)
+                .collect();
+            match hits.len() {
+                1 => Ok(hits[0]),
+                0 => Err(InputError::new(path, "column not found in the header row")
+                    .line(1)
+                    .field(name)
+                    .hint(format!("columns are: {}", header.join(", ")))),
+                _ => Err(InputError::new(path, "column name appears more than once")
+                    .line(1)
+                    .field(name)
+                    .hint("rename the columns so that each name is unique")),
+            }
+        };
+        let time_col = match &map.time {
+            Some(name) => find(name)?,
+            None => header
+                .iter()
+                .position(|h| h.eq_ignore_ascii_case("t") || h.eq_ignore_ascii_case("time"))
+                .ok_or_else(|| {
+                    InputError::new(path, "no time column")
+                        .line(1)
+                        .hint(format!(
+                        "name it 't' or 'time', or map it with --map time=COLUMN; columns are: {}",
+                        header.join(", ")
+                    ))
+                })?,
+        };
+        let mut mapped: Vec<(ChannelKey, usize)> = Vec::new();
+        for key in ChannelKey::ALL {
+            let col = match map.column_for(key) {
+                Some(name) => Some(find(name)?),
+                None => header
+                    .iter()
+                    .position(|h| h.eq_ignore_ascii_case(key.name())),
+            };
+            if let Some(c) = col {
+                if c == time_col {
+                    return Err(InputError::new(
+                        path,
+                        format!("column is mapped both as time and as '{key}'"),
+                    )
+                    .line(1)
+                    .field(&header[c]));
+                }
+                if let Some((other, _)) = mapped.iter().find(|(_, oc)| *oc == c) {
+                    return Err(InputError::new(
+                        path,
+                        format!("column is mapped both as '{other}' and as '{key}'"),
+                    )
+                    .line(1)
+                    .field(&header[c]));
+                }
+                mapped.push((key, c));
+            }
+        }
+        let keys: Vec<ChannelKey> = mapped.iter().map(|(k, _)| *k).collect();
+        check_channel_set(path, &keys)?;
+        let kind = if keys.contains(&ChannelKey::VPos) {
+            RecordingKind::RmsLevel
+        } else {
+            RecordingKind::Waveform
+        };
+        let vu = map.voltage_unit.unwrap_or(match kind {
+            RecordingKind::Waveform => VoltageUnit::V,
+            RecordingKind::RmsLevel => VoltageUnit::Pu,
+        });
+        let cu = map.current_unit.unwrap_or(CurrentUnit::A);
+        let connection = map.connection.unwrap_or(Connection::PhaseToNeutral);
+
+        let mut col_slot = vec![SKIP; ncols];
+        col_slot[time_col] = TIME;
+        let mut scale = Vec::new();
+        let mut channels = Vec::new();
+        let mut slot_keys = Vec::new();
+        for (slot, (key, col)) in mapped.iter().enumerate() {
+            col_slot[*col] = slot as u16;
+            let (unit, factor, canonical): (String, f64, &'static str) = if key.is_phase_voltage() {
+                (
+                    vu.label().into(),
+                    vu.factor(),
+                    if vu == VoltageUnit::Pu { "pu" } else { "V" },
+                )
+            } else if key.is_phase_current() {
+                (
+                    cu.label().into(),
+                    cu.factor(),
+                    if cu == CurrentUnit::Pu { "pu" } else { "A" },
+                )
+            } else if *key == ChannelKey::Status {
+                ("1 = connected".into(), 1.0, "0/1")
+            } else {
+                ("pu".into(), 1.0, "pu")
+            };
+            scale.push(factor);
+            slot_keys.push(*key);
+            channels.push(ChannelInfo {
+                key: *key,
+                source: header[*col].clone(),
+                index: *col,
+                unit,
+                scale: factor,
+                canonical_unit: canonical,
+            });
+        }
+        if kind == RecordingKind::RmsLevel && vu != VoltageUnit::Pu {
+            return Err(InputError::new(
+                path,
+                "RMS-level channels (v_pos, p, q, ip, iq) must be in per unit",
+            )
+            .field(
+                &header[mapped
+                    .iter()
+                    .find(|(k, _)| *k == ChannelKey::VPos)
+                    .map(|(_, c)| *c)
+                    .unwrap_or(0)],
+            )
+            .hint("drop --voltage-unit, or convert the columns to per unit"));
+        }
+        let unmapped = header
+            .iter()
+            .enumerate()
+            .filter(|(i, _)| col_slot[*i] == SKIP)
+            .map(|(_, h)| h.clone())
+            .collect();
+
+        // Look at the first data line: decimal comma, time format.
+        let data_start = (header_end + 1).min(buf.len());
+        let rest = &buf[data_start..];
+        let first_end = memchr::memchr(b'\n', rest).unwrap_or(rest.len());
+        let mut first = &rest[..first_end];
+        if let [r @ .., b'\r'] = first {
+            first = r;
+        }
+        if is_blank(first) {
+            return Err(
+                InputError::new(path, "the file has a header row but no data rows")
+                    .line(2)
+                    .hint("a recording needs at least two samples"),
+            );
+        }
+        let decimal_comma = delim != b',' && first.contains(&b',');
+        let first_fields = split_fields(first, delim);
+        let first_time_text = first_fields
+            .get(time_col)
+            .map(|f| String::from_utf8_lossy(strip_quotes(f)).into_owned())
+            .unwrap_or_default();
+        let time_numeric = {
+            let t = first_time_text.replace(',', ".");
+            fast_float2::parse::<f64, _>(t.trim()).is_ok()
+        };
+        let time =
+            if time_numeric {
+                TimeKind::Seconds
+            } else {
+                match parse_timestamp(&first_time_text) {
+                    Some(origin) => TimeKind::Timestamp(origin),
+                    None => return Err(InputError::new(
+                        path,
+                        format!(
+                            "time '{first_time_text}' is neither seconds nor an ISO-8601 timestamp"
+                        ),
+                    )
+                    .line(2)
+                    .column(time_col as u64 + 1)
+                    .field(&header[time_col])
+                    .hint("write time in seconds (e.g. 0.0001) or as 2026-03-01T12:00:00.000123")),
+                }
+            };
+        let layout = Layout {
+            delim,
+            decimal_comma,
+            ncols,
+            col_slot,
+            scale,
+            time,
+        };
+        buf.drain(..data_start);
+
+        let mut info = RecordingInfo {
+            path: path.display().to_string(),
+            format: "CSV".into(),
+            kind,
+            connection,
+            channels,
+            unmapped,
+            samples: 0,
+            sample_rate_hz: 0.0,
+            first_time: first_time_text.trim().to_string(),
+            duration_s: 0.0,
+            max_step_deviation: 0.0,
+            header: vec![
+                (
+                    "delimiter".into(),
+                    match delim {
+                        b',' => "comma".into(),
+                        b';' => "semicolon".into(),
+                        _ => "tab".into(),
+                    },
+                ),
+                (
+                    "decimal separator".into(),
+                    if decimal_comma { "comma" } else { "point" }.into(),
+                ),
+                (
+                    "time column".into(),
+                    format!(
+                        "{} ({})",
+                        header[time_col],
+                        match layout.time {
+                            TimeKind::Seconds => "seconds",
+                            TimeKind::Timestamp(_) => "ISO-8601 timestamps",
+                        }
+                    ),
+                ),
+            ],
+            notes: Vec::new(),
+        };
+        if kind == RecordingKind::Waveform && connection == Connection::PhaseToPhase {
+            info.notes.push(
+                "voltages are phase-to-phase: zero sequence is unobservable, phase-to-neutral magnitudes assume V0 = 0"
+                    .into(),
+            );
+        }
+
+        // Estimate the nominal step from the first rows.
+        let mut probe = Part::default();
+        probe.reset(slot_keys.len());
+        let limit = memchr::memchr_iter(b'\n', &buf)
+            .nth(STEP_ESTIMATE_ROWS)
+            .map(|i| i + 1)
+            .unwrap_or(buf.len());
+        let _ = parse_region(&buf[..limit], &layout, &mut probe);
+        let n = probe.time.len();
+        let nominal_step = if n >= 2 {
+            (probe.time[n - 1] - probe.time[0]) / (n - 1) as f64
+        } else {
+            f64::NAN
+        };
+        let mut src = CsvSource {
+            path: path.to_path_buf(),
+            file,
+            buf,
+            eof,
+            layout,
+            first_data_line: 2,
+            nominal_step,
+            opts: *opts,
+            info,
+            slot_keys,
+            header,
+        };
+        if nominal_step.is_finite() && nominal_step > 0.0 {
+            src.info.sample_rate_hz = 1.0 / nominal_step;
+        }
+        Ok(src)
+    }
+
+    fn part_error(&self, line: u64, problem: RowProblem) -> InputError {
+        let p = &self.path;
+        let name = |col: usize| self.header.get(col).cloned().unwrap_or_default();
+        match problem {
+            RowProblem::NotNumber { col, text } => InputError::new(
+                p,
+                if text.is_empty() {
+                    "empty field where a number is expected".to_string()
+                } else {
+                    format!("'{text}' is not a number")
+                },
+            )
+            .line(line)
+            .column(col as u64 + 1)
+            .field(name(col))
+            .hint(if self.layout.decimal_comma {
+                "fields use a decimal comma (detected from the first data row); fix or remove the value"
+            } else {
+                "fix or remove the value; missing samples cannot be guessed"
+            }),
+            RowProblem::NotFinite { col, text } => {
+                InputError::new(p, format!("value '{text}' is not finite"))
+                    .line(line)
+                    .column(col as u64 + 1)
+                    .field(name(col))
+                    .hint("NaN and infinity are not measurements; fix the recording or cut it before this row")
+            }
+            RowProblem::BadTimestamp { col, text } => InputError::new(
+                p,
+                format!("'{text}' is not an ISO-8601 timestamp like the first row's"),
+            )
+            .line(line)
+            .column(col as u64 + 1)
+            .field(name(col))
+            .hint("use one time format for the whole column"),
+            RowProblem::TooFewFields { have } => InputError::new(
+                p,
+                format!("row has {have} fields, the header has {}", self.layout.ncols),
+            )
+            .line(line)
+            .field(name(have))
+            .hint("the row is missing values (a truncated file?)"),
+            RowProblem::TooManyFields => InputError::new(
+                p,
+                format!("row has more fields than the header's {}", self.layout.ncols),
+            )
+            .line(line)
+            .hint(if self.layout.delim == b',' {
+                "a decimal comma in a comma-separated file? Use ';' as delimiter then"
+            } else {
+                "check the delimiter and quoting of this row"
+            }),
+            RowProblem::BlankLine => InputError::new(p, "blank line inside the data")
+                .line(line)
+                .hint("remove blank lines between data rows"),
+        }
+    }
+}
+
+/// State of the sequential time check across parts.
+struct TimeCheck {
+    first: Option<f64>,
+    prev: f64,
+    nominal: f64,
+    tolerance: f64,
+    max_dev: f64,
+    count: u64,
+}
+
+impl Source for CsvSource {
+    fn info(&self) -> &RecordingInfo {
+        &self.info
+    }
+
+    fn stream(mut self: Box<Self>, sink: &mut dyn FrameSink) -> Result<RecordingInfo, InputError> {
+        let threads = std::thread::available_parallelism()
+            .map(|n| n.get())
+            .unwrap_or(1)
+            .clamp(1, 8);
+        let nslots = self.slot_keys.len();
+        let mut parts: Vec<Part> = (0..threads).map(|_| Part::default()).collect();
+        let mut line_base = self.first_data_line;
+        let mut tc = TimeCheck {
+            first: None,
+            prev: f64::NAN,
+            nominal: self.nominal_step,
+            tolerance: self.opts.step_tolerance,
+            max_dev: 0.0,
+            count: 0,
+        };
+        // Trailing blank lines are accepted only at the end of the file.
+        let mut pending_blank: Option<u64> = None;
+        loop {
+            if !self.eof && self.buf.len() < CHUNK {
+                let want = CHUNK - self.buf.len();
+                self.eof = fill(&mut self.file, &mut self.buf, want, &self.path)?;
+            }
+            let region_end = if self.eof {
+                self.buf.len()
+            } else {
+                match memchr::memrchr(b'\n', &self.buf) {
+                    Some(i) => i + 1,
+                    None => {
+                        // A line longer than the chunk: read more.
+                        let more = self.buf.len();
+                        self.eof = fill(&mut self.file, &mut self.buf, more, &self.path)?;
+                        continue;
+                    }
+                }
+            };
+            let region = &self.buf[..region_end];
+            let pieces = split_at_lines(region, threads);
+            let layout = &self.layout;
+            let results: Vec<Result<(), PartError>> = if pieces.len() == 1 {
+                parts[0].reset(nslots);
+                vec![parse_region(pieces[0], layout, &mut parts[0])]
+            } else {
+                std::thread::scope(|s| {
+                    let handles: Vec<_> = pieces
+                        .iter()
+                        .zip(parts.iter_mut())
+                        .map(|(piece, part)| {
+                            s.spawn(move || {
+                                part.reset(nslots);
+                                parse_region(piece, layout, part)
+                            })
+                        })
+                        .collect();
+                    handles
+                        .into_iter()
+                        .map(|h| match h.join() {
+                            Ok(r) => r,
+                            Err(panic) => std::panic::resume_unwind(panic),
+                        })
+                        .collect()
+                })
+            };
+            for (k, res) in results.into_iter().enumerate() {
+                let part = &mut parts[k];
+                if let Err(PartError { line, problem }) = res {
+                    return Err(self.part_error(line_base + line, problem));
+                }
+                if let Some(b) = pending_blank {
+                    if !part.time.is_empty() {
+                        return Err(self.part_error(b, RowProblem::BlankLine));
+                    }
+                }
+                if let Some(b) = part.trailing_blank {
+                    pending_blank.get_or_insert(line_base + b);
+                }
+                // Time order and even sampling, then hand over.
+                check_time(&mut tc, &mut part.time, line_base).map_err(|(line, msg, hint)| {
+                    InputError::new(&self.path, msg)
+                        .line(line)
+                        .field(
+                            self.header[self
+                                .layout
+                                .col_slot
+                                .iter()
+                                .position(|s| *s == TIME)
+                                .unwrap_or(0)]
+                            .clone(),
+                        )
+                        .hint(hint)
+                })?;
+                if !part.time.is_empty() {
+                    let mut channels: [Option<&[f64]>; N_KEYS] = [None; N_KEYS];
+                    for (slot, key) in self.slot_keys.iter().enumerate() {
+                        channels[key.index()] = Some(&part.cols[slot]);
+                    }
+                    sink.block(&Block {
+                        time: &part.time,
+                        channels,
+                    });
+                }
+                line_base += part.lines;
+            }
+            self.buf.drain(..region_end);
+            if self.eof && self.buf.is_empty() {
+                break;
+            }
+        }
+        let n = tc.count;
+        if n < 2 {
+            return Err(
+                InputError::new(&self.path, format!("the recording has {n} data row(s)"))
+                    .hint("a recording needs at least two samples"),
+            );
+        }
+        let first = tc.first.unwrap_or(0.0);
+        let duration = tc.prev - first;
+        let mut info = self.info.clone();
+        info.samples = n;
+        info.duration_s = duration;
+        info.sample_rate_hz = (n - 1) as f64 / duration;
+        info.max_step_deviation = tc.max_dev;
+        Ok(info)
+    }
+}
+
+/// Checks increasing, evenly spaced time and shifts it to start at zero.
+/// On error returns (line, message, hint).
+fn check_time(
+    tc: &mut TimeCheck,
+    time: &mut [f64],
+    line_base: u64,
+) -> Result<(), (u64, String, String)> {
+    for (i, t) in time.iter_mut().enumerate() {
+        let raw = *t;
+        match tc.first {
+            None => {
+                tc.first = Some(raw);
+            }
+            Some(_) => {
+                let dt = raw - tc.prev;
+                let line = line_base + i as u64;
+                if !(dt > 0.0) {
+                    let what = if dt == 0.0 {
+                        "repeats"
+                    } else {
+                        "goes back from"
+                    };
+                    return Err((
+                        line,
+                        format!("time {raw} {what} the previous sample's time {}", tc.prev),
+                        "time must increase from row to row; remove duplicated rows or sort the file".into(),
+                    ));
+                }
+                let dev = (dt - tc.nominal).abs() / tc.nominal;
+                if dev > tc.max_dev {
+                    tc.max_dev = dev;
+                }
+                if !(dev <= tc.tolerance) {
+                    return Err((
+                        line,
+                        format!(
+                            "uneven sampling: step {:.6e} s against the nominal {:.6e} s ({:.1} % off, tolerance {:.1} %)",
+                            dt,
+                            tc.nominal,
+                            dev * 100.0,
+                            tc.tolerance * 100.0
+                        ),
+                        "the phasor analysis needs evenly sampled data: fill the gap or split the recording here; \
+                         --step-tolerance widens the accepted jitter".into(),
+                    ));
+                }
+            }
+        }
+        tc.prev = raw;
+        tc.count += 1;
+        *t = raw - tc.first.unwrap_or(0.0);
+    }
+    Ok(())
+}

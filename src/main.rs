@@ -1,0 +1,33 @@
+//! Thin entry point: parse arguments, run, map the outcome to an exit status.
+//! 0: every test passed or was not applicable; 1: some test failed or was
+//! inconclusive; 2: the input could not be used.
+
+use clap::Parser;
+use std::process::ExitCode;
+
+fn main() -> ExitCode {
+    let cli = match holdfast::cli::Cli::try_parse() {
+        Ok(c) => c,
+        Err(e) => {
+            let _ = e.print();
+            return ExitCode::from(if e.use_stderr() { 2 } else { 0 });
+        }
+    };
+    match holdfast::commands::run(cli) {
+        Ok(status) => ExitCode::from(status),
+        Err(e) => {
+            // A closed pipe (`holdfast ... | head`) is not an error.
+            if e.chain().any(|c| {
+                c.downcast_ref::<std::io::Error>()
+                    .is_some_and(|io| io.kind() == std::io::ErrorKind::BrokenPipe)
+            }) {
+                return ExitCode::SUCCESS;
+            }
+            eprintln!("error: {e}");
+            for cause in e.chain().skip(1) {
+                eprintln!("  caused by: {cause}");
+            }
+            ExitCode::from(2)
+        }
+    }
+}

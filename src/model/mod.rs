@@ -1,0 +1,332 @@
+//! The recording model: what every importer produces and every later stage reads.
+//!
+//! A recording is described by [`RecordingInfo`] (file facts, channel metadata,
+//! sampling, the unit's ratings) and delivered as a stream of sample blocks
+//! through a [`FrameSink`]. Instantaneous three-phase waveforms and RMS-level
+//! series share this one model; [`RecordingKind`] says which one a file holds.
+//! Streaming keeps memory bounded for recordings of millions of samples: only
+//! the analysis output (decimated phasor quantities) is kept.
+
+use serde::Serialize;
+use std::fmt;
+
+/// The signals a recording channel can be mapped to (the `--map` keys).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ChannelKey {
+    Va,
+    Vb,
+    Vc,
+    Ia,
+    Ib,
+    Ic,
+    VPos,
+    P,
+    Q,
+    Ip,
+    Iq,
+    Status,
+}
+
+/// Number of [`ChannelKey`] variants; frames are arrays indexed by key.
+pub const N_KEYS: usize = 12;
+
+impl ChannelKey {
+    pub const ALL: [ChannelKey; N_KEYS] = [
+        ChannelKey::Va,
+        ChannelKey::Vb,
+        ChannelKey::Vc,
+        ChannelKey::Ia,
+        ChannelKey::Ib,
+        ChannelKey::Ic,
+        ChannelKey::VPos,
+        ChannelKey::P,
+        ChannelKey::Q,
+        ChannelKey::Ip,
+        ChannelKey::Iq,
+        ChannelKey::Status,
+    ];
+
+    /// The name used in `--map KEY=COLUMN` and in plan `channels` blocks.
+    pub fn name(self) -> &'static str {
+        match self {
+            ChannelKey::Va => "va",
+            ChannelKey::Vb => "vb",
+            ChannelKey::Vc => "vc",
+            ChannelKey::Ia => "ia",
+            ChannelKey::Ib => "ib",
+            ChannelKey::Ic => "ic",
+            ChannelKey::VPos => "v_pos",
+            ChannelKey::P => "p",
+            ChannelKey::Q => "q",
+            ChannelKey::Ip => "ip",
+            ChannelKey::Iq => "iq",
+            ChannelKey::Status => "status",
+        }
+    }
+
+    pub fn parse(s: &str) -> Option<ChannelKey> {
+        ChannelKey::ALL
+            .iter()
+            .copied()
+            .find(|k| k.name().eq_ignore_ascii_case(s.trim()))
+    }
+
+    pub fn index(self) -> usize {
+        self as usize
+    }
+
+    pub fn is_phase_voltage(self) -> bool {
+        matches!(self, ChannelKey::Va | ChannelKey::Vb | ChannelKey::Vc)
+    }
+
+    pub fn is_phase_current(self) -> bool {
+        matches!(self, ChannelKey::Ia | ChannelKey::Ib | ChannelKey::Ic)
+    }
+
+    /// RMS-level quantities, given directly in per unit.
+    pub fn is_rms_level(self) -> bool {
+        matches!(
+            self,
+            ChannelKey::VPos | ChannelKey::P | ChannelKey::Q | ChannelKey::Ip | ChannelKey::Iq
+        )
+    }
+}
+
+impl fmt::Display for ChannelKey {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+/// Unit of the voltage channels.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Default)]
+pub enum VoltageUnit {
+    #[default]
+    V,
+    #[serde(rename = "kV")]
+    KV,
+    #[serde(rename = "pu")]
+    Pu,
+}
+
+/// Unit of the current channels.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Default)]
+pub enum CurrentUnit {
+    #[default]
+    A,
+    #[serde(rename = "kA")]
+    KA,
+    #[serde(rename = "pu")]
+    Pu,
+}
+
+impl VoltageUnit {
+    pub fn parse(s: &str) -> Option<Self> {
+        match s.trim() {
+            "V" | "v" => Some(VoltageUnit::V),
+            "kV" | "kv" | "KV" => Some(VoltageUnit::KV),
+            "pu" | "PU" | "p.u." => Some(VoltageUnit::Pu),
+            _ => None,
+        }
+    }
+    /// Factor to volts (or 1 for per unit).
+    pub fn factor(self) -> f64 {
+        match self {
+            VoltageUnit::V | VoltageUnit::Pu => 1.0,
+            VoltageUnit::KV => 1e3,
+        }
+    }
+    pub fn label(self) -> &'static str {
+        match self {
+            VoltageUnit::V => "V",
+            VoltageUnit::KV => "kV",
+            VoltageUnit::Pu => "pu",
+        }
+    }
+}
+
+impl CurrentUnit {
+    pub fn parse(s: &str) -> Option<Self> {
+        match s.trim() {
+            "A" | "a" => Some(CurrentUnit::A),
+            "kA" | "ka" | "KA" => Some(CurrentUnit::KA),
+            "pu" | "PU" | "p.u." => Some(CurrentUnit::Pu),
+            _ => None,
+        }
+    }
+    /// Factor to amperes (or 1 for per unit).
+    pub fn factor(self) -> f64 {
+        match self {
+            CurrentUnit::A | CurrentUnit::Pu => 1.0,
+            CurrentUnit::KA => 1e3,
+        }
+    }
+    pub fn label(self) -> &'static str {
+        match self {
+            CurrentUnit::A => "A",
+            CurrentUnit::KA => "kA",
+            CurrentUnit::Pu => "pu",
+        }
+    }
+}
+
+/// How the three voltage channels were measured.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum Connection {
+    #[default]
+    PhaseToNeutral,
+    /// `va`, `vb`, `vc` hold `v_ab`, `v_bc`, `v_ca`.
+    PhaseToPhase,
+}
+
+impl Connection {
+    pub fn parse(s: &str) -> Option<Self> {
+        match s.trim() {
+            "phase_to_neutral" | "ph-n" | "ln" => Some(Connection::PhaseToNeutral),
+            "phase_to_phase" | "ph-ph" | "ll" => Some(Connection::PhaseToPhase),
+            _ => None,
+        }
+    }
+    pub fn name(self) -> &'static str {
+        match self {
+            Connection::PhaseToNeutral => "phase_to_neutral",
+            Connection::PhaseToPhase => "phase_to_phase",
+        }
+    }
+}
+
+/// The unit's ratings, from the test plan or the rating flags.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct Ratings {
+    /// Rated line-to-line RMS voltage `Un`, kV.
+    pub rated_kv: f64,
+    /// Rated apparent power `Sn`, MVA.
+    pub rated_mva: f64,
+    /// Nominal frequency `fn`, Hz.
+    pub frequency_hz: f64,
+}
+
+impl Ratings {
+    /// Phase-to-neutral RMS voltage base `Un/√3`, volts.
+    pub fn voltage_base_phase_v(&self) -> f64 {
+        self.rated_kv * 1e3 / 3f64.sqrt()
+    }
+    /// Line-to-line RMS voltage base `Un`, volts.
+    pub fn voltage_base_line_v(&self) -> f64 {
+        self.rated_kv * 1e3
+    }
+    /// Current base `In = Sn / (√3·Un)`, amperes.
+    pub fn current_base_a(&self) -> f64 {
+        self.rated_mva * 1e6 / (3f64.sqrt() * self.rated_kv * 1e3)
+    }
+}
+
+/// Which signals a recording carries.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RecordingKind {
+    /// Instantaneous three-phase waveforms (voltages, optionally currents).
+    Waveform,
+    /// RMS-level series in per unit (`v_pos` with `p`/`q` or `ip`/`iq`).
+    RmsLevel,
+}
+
+/// One mapped channel of a recording.
+#[derive(Clone, Debug, Serialize)]
+pub struct ChannelInfo {
+    pub key: ChannelKey,
+    /// Column or channel name in the source file.
+    pub source: String,
+    /// Zero-based column (CSV) or channel index (COMTRADE) in the source.
+    pub index: usize,
+    /// The unit of the values as the file gives them.
+    pub unit: String,
+    /// Factor applied on import to reach the canonical unit (V, A or pu).
+    pub scale: f64,
+    /// What the scaled values are: `V`, `A`, `pu` or `0/1`.
+    pub canonical_unit: &'static str,
+}
+
+/// Facts about an imported recording.
+#[derive(Clone, Debug, Serialize)]
+pub struct RecordingInfo {
+    pub path: String,
+    /// `CSV` or `COMTRADE`.
+    pub format: String,
+    pub kind: RecordingKind,
+    pub connection: Connection,
+    pub channels: Vec<ChannelInfo>,
+    /// Columns of the file that no key was mapped to.
+    pub unmapped: Vec<String>,
+    pub samples: u64,
+    pub sample_rate_hz: f64,
+    /// Time of the first sample as the file states it (seconds or timestamp text).
+    pub first_time: String,
+    /// Seconds from the first to the last sample.
+    pub duration_s: f64,
+    /// Largest relative deviation of a sample step from the nominal step.
+    pub max_step_deviation: f64,
+    /// Format-specific facts worth showing a reviewer (key, value).
+    pub header: Vec<(String, String)>,
+    pub notes: Vec<String>,
+}
+
+impl RecordingInfo {
+    pub fn has(&self, key: ChannelKey) -> bool {
+        self.channels.iter().any(|c| c.key == key)
+    }
+}
+
+/// A block of consecutive samples in canonical units, column-wise.
+///
+/// `time` is in seconds from the first sample of the recording; each mapped
+/// channel has a slice of the same length (`None` for unmapped keys).
+pub struct Block<'a> {
+    pub time: &'a [f64],
+    pub channels: [Option<&'a [f64]>; N_KEYS],
+}
+
+impl Block<'_> {
+    pub fn len(&self) -> usize {
+        self.time.len()
+    }
+    pub fn is_empty(&self) -> bool {
+        self.time.is_empty()
+    }
+}
+
+/// Consumer of sample blocks, in time order.
+pub trait FrameSink {
+    fn block(&mut self, block: &Block<'_>);
+}
+
+/// A sink that keeps every sample: for small recordings, synthetic data and tests.
+#[derive(Default, Clone, Debug)]
+pub struct Collected {
+    pub time: Vec<f64>,
+    pub channels: Vec<Option<Vec<f64>>>,
+}
+
+impl Collected {
+    pub fn channel(&self, key: ChannelKey) -> Option<&[f64]> {
+        self.channels.get(key.index())?.as_deref()
+    }
+}
+
+impl FrameSink for Collected {
+    fn block(&mut self, block: &Block<'_>) {
+        if self.channels.is_empty() {
+            self.channels = vec![None; N_KEYS];
+        }
+        self.time.extend_from_slice(block.time);
+        for (i, ch) in block.channels.iter().enumerate() {
+            if let Some(v) = ch {
+                self.channels[i]
+                    .get_or_insert_with(Vec::new)
+                    .extend_from_slice(v);
+            }
+        }
+    }
+}

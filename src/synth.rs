@@ -1,0 +1,397 @@
+//! Synthetic recordings of a specified voltage dip and unit response.
+//!
+//! The grid side is a three-phase source whose phase voltages step to the
+//! given residual magnitudes (optionally with a phase jump) for the fault
+//! duration, then to the recovery voltage. The unit side is a current source
+//! in the positive-sequence frame of the voltage:
+//!
+//! * reactive current `iq` follows its target `iq0 + k·(|ΔV| − db)` (dead band
+//!   `offset`) or `iq0 + k·|ΔV|` (`full`), signed so that a sag asks for
+//!   capacitive current, limited so that `|I1| ≤ limit`, through a first-order
+//!   lag with time constant `τ` (exact discretisation
+//!   `iq += (target − iq)·(1 − e^(−Δt/τ))`);
+//! * active current keeps its pre-fault value unless the current limit
+//!   needs room, and after the fault ramps back at a set rate;
+//! * optional negative-sequence reactive current `iq2 = −k2·|V2|` (inductive);
+//! * an optional trip (current and status to zero) or momentary blocking.
+//!
+//! The controller sees the true fundamental voltage, so analysing the file
+//! shows the response through the analysis' one-cycle window: that is what a
+//! measurement of a real unit shows too.
+
+use crate::analysis::sequence;
+use crate::model::{Connection, CurrentUnit, Ratings, VoltageUnit};
+use num_complex::Complex64;
+use rand::SeedableRng;
+use rand_chacha::ChaCha8Rng;
+use rand_distr::{Distribution, Normal};
+use serde::Serialize;
+use std::f64::consts::{PI, SQRT_2};
+use std::io::Write;
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum DeadBandMode {
+    /// Required current `k·(|ΔV| − db)`.
+    Offset,
+    /// Required current `k·|ΔV|` once outside the dead band.
+    Full,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum SynthLayout {
+    /// Instantaneous three-phase voltages and currents.
+    Waveform,
+    /// RMS-level series: `v_pos`, `p`, `q` in per unit.
+    Rms,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum TimeFormat {
+    Seconds,
+    Iso,
+}
+
+/// Everything that defines a synthetic recording.
+#[derive(Clone, Debug, PartialEq)]
+pub struct SynthSpec {
+    pub ratings: Ratings,
+    pub sample_rate_hz: f64,
+    pub duration_s: f64,
+    pub fault_start_s: f64,
+    pub fault_duration_s: f64,
+    /// Residual phase-to-neutral magnitude per phase during the fault, pu.
+    pub residual_pu: [f64; 3],
+    pub phase_jump_deg: f64,
+    /// Voltage after the fault, pu.
+    pub recovery_pu: f64,
+    pub p0_pu: f64,
+    pub q0_pu: f64,
+    pub k_gain: f64,
+    pub dead_band_pu: f64,
+    pub dead_band_mode: DeadBandMode,
+    pub iq_tau_s: f64,
+    pub current_limit_pu: f64,
+    pub k2_gain: f64,
+    /// Active current recovery rate after the fault, pu/s (infinite: a step).
+    pub p_ramp_pu_per_s: f64,
+    pub trip_at_s: Option<f64>,
+    pub block: Option<(f64, f64)>,
+    /// (harmonic order, amplitude in pu of the fundamental base).
+    pub harmonics: Vec<(u32, f64)>,
+    /// Standard deviation of Gaussian noise, pu.
+    pub noise_pu: f64,
+    pub seed: u64,
+    pub layout: SynthLayout,
+    pub voltage_unit: VoltageUnit,
+    pub current_unit: CurrentUnit,
+    pub connection: Connection,
+    pub delimiter: u8,
+    pub decimal_comma: bool,
+    pub time_format: TimeFormat,
+    pub status_column: bool,
+}
+
+impl SynthSpec {
+    /// A balanced 50 Hz dip with a compliant unit; change what you need.
+    pub fn example() -> Self {
+        SynthSpec {
+            ratings: Ratings {
+                rated_kv: 0.69,
+                rated_mva: 4.2,
+                frequency_hz: 50.0,
+            },
+            sample_rate_hz: 10_000.0,
+            duration_s: 3.0,
+            fault_start_s: 1.0,
+            fault_duration_s: 0.5,
+            residual_pu: [0.2; 3],
+            phase_jump_deg: 0.0,
+            recovery_pu: 1.0,
+            p0_pu: 0.8,
+            q0_pu: 0.0,
+            k_gain: 2.0,
+            dead_band_pu: 0.1,
+            dead_band_mode: DeadBandMode::Offset,
+            iq_tau_s: 0.01,
+            current_limit_pu: 1.1,
+            k2_gain: 0.0,
+            p_ramp_pu_per_s: 5.0,
+            trip_at_s: None,
+            block: None,
+            harmonics: Vec::new(),
+            noise_pu: 0.0,
+            seed: 1,
+            layout: SynthLayout::Waveform,
+            voltage_unit: VoltageUnit::V,
+            current_unit: CurrentUnit::A,
+            connection: Connection::PhaseToNeutral,
+            delimiter: b',',
+            decimal_comma: false,
+            time_format: TimeFormat::Seconds,
+            status_column: false,
+        }
+    }
+
+    /// Checks the spec for values that cannot make a recording.
+    pub fn validate(&self) -> Result<(), String> {
+        let pos = |name: &str, v: f64| {
+            if v.is_finite() && v > 0.0 {
+                Ok(())
+            } else {
+                Err(format!("{name} must be a positive number, got {v}"))
+            }
+        };
+        pos("--sample-rate", self.sample_rate_hz)?;
+        pos("--duration", self.duration_s)?;
+        pos("--frequency", self.ratings.frequency_hz)?;
+        pos("--rated-kv", self.ratings.rated_kv)?;
+        pos("--rated-mva", self.ratings.rated_mva)?;
+        pos("--current-limit", self.current_limit_pu)?;
+        if self.sample_rate_hz < 8.0 * self.ratings.frequency_hz
+            && self.layout == SynthLayout::Waveform
+        {
+            return Err("--sample-rate must be at least 8 samples per cycle for waveforms".into());
+        }
+        if self
+            .residual_pu
+            .iter()
+            .any(|r| !(r.is_finite() && *r >= 0.0))
+        {
+            return Err("residual voltages must be >= 0 pu".into());
+        }
+        if !(self.fault_duration_s >= 0.0) || !(self.fault_start_s >= 0.0) {
+            return Err("--fault-start and --fault-duration must be >= 0".into());
+        }
+        if !(self.iq_tau_s >= 0.0) || !(self.noise_pu >= 0.0) || !(self.p_ramp_pu_per_s > 0.0) {
+            return Err("--iq-tau, --noise must be >= 0 and --p-ramp > 0".into());
+        }
+        if self.p0_pu.hypot(self.q0_pu) > self.current_limit_pu {
+            return Err("pre-fault P and Q exceed the current limit".into());
+        }
+        if self.decimal_comma && self.delimiter == b',' {
+            return Err("a decimal comma needs ';' or tab as delimiter".into());
+        }
+        if self.duration_s * self.sample_rate_hz > 2e9 {
+            return Err("more than 2e9 samples: shorten --duration or lower --sample-rate".into());
+        }
+        Ok(())
+    }
+}
+
+/// Unit controller state.
+struct Unit {
+    ip: f64,
+    iq: f64,
+    ip_fault: f64,
+}
+
+/// Writes the recording as CSV to `out`.
+pub fn write_csv(spec: &SynthSpec, out: &mut dyn Write) -> std::io::Result<u64> {
+    let r = &spec.ratings;
+    let w = 2.0 * PI * r.frequency_hz;
+    let dt = 1.0 / spec.sample_rate_hz;
+    let n = (spec.duration_s * spec.sample_rate_hz).round() as u64 + 1;
+    let a = sequence::a();
+    let a2 = a * a;
+    let jump = spec.phase_jump_deg.to_radians();
+    let fault_end = spec.fault_start_s + spec.fault_duration_s;
+    let ip0 = spec.p0_pu; // pre-fault voltage is 1 pu
+    let iq0 = spec.q0_pu;
+    let mut unit = Unit {
+        ip: ip0,
+        iq: iq0,
+        ip_fault: ip0,
+    };
+    let mut iq2 = 0.0;
+    let alpha = if spec.iq_tau_s > 0.0 {
+        1.0 - (-dt / spec.iq_tau_s).exp()
+    } else {
+        1.0
+    };
+    let mut rng = ChaCha8Rng::seed_from_u64(spec.seed);
+    let normal = Normal::new(0.0, 1.0).map_err(std::io::Error::other)?;
+    let vbase_phase = r.voltage_base_phase_v();
+    let ibase = r.current_base_a();
+    let vfactor = match (spec.voltage_unit, spec.connection) {
+        (VoltageUnit::Pu, Connection::PhaseToNeutral) => 1.0,
+        (VoltageUnit::Pu, Connection::PhaseToPhase) => 1.0 / 3f64.sqrt(),
+        (u, _) => vbase_phase / u.factor(),
+    };
+    let ifactor = match spec.current_unit {
+        CurrentUnit::Pu => 1.0,
+        u => ibase / u.factor(),
+    };
+    let d = spec.delimiter as char;
+    let decimals_t = ((spec.sample_rate_hz.log10().ceil() as usize) + 3).min(12);
+    let origin = chrono::NaiveDate::from_ymd_opt(2026, 3, 14)
+        .and_then(|d| d.and_hms_opt(10, 0, 0))
+        .unwrap_or_default();
+
+    // Header.
+    let mut header: Vec<&str> = vec!["t"];
+    match spec.layout {
+        SynthLayout::Waveform => header.extend(["va", "vb", "vc", "ia", "ib", "ic"]),
+        SynthLayout::Rms => header.extend(["v_pos", "p", "q"]),
+    }
+    if spec.status_column {
+        header.push("status");
+    }
+    writeln!(out, "{}", header.join(&d.to_string()))?;
+
+    let mut line = String::with_capacity(128);
+    for m in 0..n {
+        let t = m as f64 * dt;
+        let in_fault = t >= spec.fault_start_s && t < fault_end;
+        let after = t >= fault_end;
+        // Grid voltage phasors (pu of the phase base).
+        let (mags, ang) = if in_fault {
+            (spec.residual_pu, jump)
+        } else if after {
+            ([spec.recovery_pu; 3], 0.0)
+        } else {
+            ([1.0; 3], 0.0)
+        };
+        let va = Complex64::from_polar(mags[0], ang);
+        let vb = Complex64::from_polar(mags[1], ang - 2.0 * PI / 3.0);
+        let vc = Complex64::from_polar(mags[2], ang + 2.0 * PI / 3.0);
+        let [_, v1, v2] = sequence::sequences(va, vb, vc);
+        // Unit response.
+        let dv = v1.norm() - 1.0;
+        let tripped = spec.trip_at_s.is_some_and(|tt| t >= tt);
+        let blocked = spec.block.is_some_and(|(b0, b1)| t >= b0 && t < b1);
+        let extra = if dv.abs() > spec.dead_band_pu {
+            let mag = match spec.dead_band_mode {
+                DeadBandMode::Offset => spec.k_gain * (dv.abs() - spec.dead_band_pu),
+                DeadBandMode::Full => spec.k_gain * dv.abs(),
+            };
+            -mag * dv.signum()
+        } else {
+            0.0
+        };
+        let lim = spec.current_limit_pu;
+        let iq_target = (iq0 + extra).clamp(-lim, lim);
+        unit.iq += (iq_target - unit.iq) * alpha;
+        if in_fault {
+            let room = (lim * lim - unit.iq * unit.iq).max(0.0).sqrt();
+            unit.ip = ip0.min(room);
+            unit.ip_fault = unit.ip;
+        } else if after {
+            let room = (lim * lim - unit.iq * unit.iq).max(0.0).sqrt();
+            unit.ip = (unit.ip + spec.p_ramp_pu_per_s * dt).min(ip0).min(room);
+        }
+        let iq2_target = -spec.k2_gain * v2.norm();
+        iq2 += (iq2_target - iq2) * alpha;
+        let (ip, iq, iq2n) = if tripped || blocked {
+            (0.0, 0.0, 0.0)
+        } else {
+            (unit.ip, unit.iq, iq2)
+        };
+        let u1 = if v1.norm() > 1e-9 {
+            v1 / v1.norm()
+        } else {
+            Complex64::from_polar(1.0, ang)
+        };
+        let u2 = if v2.norm() > 1e-9 {
+            v2 / v2.norm()
+        } else {
+            Complex64::new(0.0, 0.0)
+        };
+        let i1 = Complex64::new(ip, -iq) * u1;
+        let i2 = Complex64::new(0.0, -iq2n) * u2;
+        let status = if tripped { 0.0 } else { 1.0 };
+
+        line.clear();
+        let put = |line: &mut String, v: f64, dec: usize| {
+            use std::fmt::Write as _;
+            line.push(d);
+            let start = line.len();
+            let _ = write!(line, "{:.*}", dec, v);
+            if spec.decimal_comma {
+                let tail: String = line[start..].replace('.', ",");
+                line.truncate(start);
+                line.push_str(&tail);
+            }
+        };
+        {
+            use std::fmt::Write as _;
+            match spec.time_format {
+                TimeFormat::Seconds => {
+                    let _ = write!(line, "{:.*}", decimals_t, t);
+                    if spec.decimal_comma {
+                        line.clone_from(&line.replace('.', ","));
+                    }
+                }
+                TimeFormat::Iso => {
+                    let ts = origin + chrono::Duration::nanoseconds((t * 1e9).round() as i64);
+                    let _ = write!(line, "{}", ts.format("%Y-%m-%dT%H:%M:%S%.6f"));
+                }
+            }
+        }
+        match spec.layout {
+            SynthLayout::Waveform => {
+                let phase_i = [i1 + i2, a2 * i1 + a * i2, a * i1 + a2 * i2];
+                let phase_v = [va, vb, vc];
+                let rot = Complex64::from_polar(1.0, w * t);
+                let inst = |x: Complex64| SQRT_2 * (x * rot).re;
+                let harm = |k: usize, rng: &mut ChaCha8Rng| -> f64 {
+                    let mut h = 0.0;
+                    for (order, amp) in &spec.harmonics {
+                        let o = *order as f64;
+                        h += SQRT_2 * amp * (o * (w * t - 2.0 * PI * k as f64 / 3.0)).cos();
+                    }
+                    if spec.noise_pu > 0.0 {
+                        h += spec.noise_pu * normal.sample(rng);
+                    }
+                    h
+                };
+                let mut vals = [0.0; 3];
+                for k in 0..3 {
+                    vals[k] = inst(phase_v[k]) + harm(k, &mut rng);
+                }
+                let vout = match spec.connection {
+                    Connection::PhaseToNeutral => vals,
+                    Connection::PhaseToPhase => {
+                        [vals[0] - vals[1], vals[1] - vals[2], vals[2] - vals[0]]
+                    }
+                };
+                let vdec = if spec.voltage_unit == VoltageUnit::Pu {
+                    6
+                } else {
+                    4
+                };
+                for v in vout {
+                    put(&mut line, v * vfactor, vdec);
+                }
+                for k in 0..3 {
+                    let ival = if tripped {
+                        0.0
+                    } else {
+                        inst(phase_i[k]) + harm(k, &mut rng)
+                    };
+                    put(&mut line, ival * ifactor, 5);
+                }
+            }
+            SynthLayout::Rms => {
+                let mut noise = || {
+                    if spec.noise_pu > 0.0 {
+                        spec.noise_pu * normal.sample(&mut rng)
+                    } else {
+                        0.0
+                    }
+                };
+                let vm = v1.norm();
+                let s = v1 * i1.conj();
+                put(&mut line, vm + noise(), 6);
+                put(&mut line, s.re + noise(), 6);
+                put(&mut line, s.im + noise(), 6);
+            }
+        }
+        if spec.status_column {
+            put(&mut line, status, 0);
+        }
+        line.push('\n');
+        out.write_all(line.as_bytes())?;
+    }
+    Ok(n)
+}
