@@ -24,7 +24,7 @@ pub struct Cli {
 #[derive(Subcommand, Debug)]
 pub enum Command {
     /// Show a recording's channels, units, sampling, and the disturbances and trips found in it.
-    Inspect(InspectArgs),
+    Inspect(Box<InspectArgs>),
     /// Write a synthetic recording of a specified dip and unit response (for demos and tests).
     Synth(Box<SynthArgs>),
 }

@@ -118,8 +118,8 @@ impl SlidingDft {
         for c in 0..self.chans {
             let old = self.ring[base + c];
             self.sums[c] += w * x[c] - w_old * old;
-            self.ring[base + c] = x[c];
         }
+        self.ring[base..base + self.chans].copy_from_slice(&x[..self.chans]);
         self.rot[self.pos] = w;
         self.pos += 1;
         if self.pos == self.k {

@@ -627,13 +627,13 @@ impl CsvSource {
             let t = first_time_text.replace(',', ".");
             fast_float2::parse::<f64, _>(t.trim()).is_ok()
         };
-        let time =
-            if time_numeric {
-                TimeKind::Seconds
-            } else {
-                match parse_timestamp(&first_time_text) {
-                    Some(origin) => TimeKind::Timestamp(origin),
-                    None => return Err(InputError::new(
+        let time = if time_numeric {
+            TimeKind::Seconds
+        } else {
+            match parse_timestamp(&first_time_text) {
+                Some(origin) => TimeKind::Timestamp(origin),
+                None => {
+                    return Err(InputError::new(
                         path,
                         format!(
                             "time '{first_time_text}' is neither seconds nor an ISO-8601 timestamp"
@@ -642,9 +642,10 @@ impl CsvSource {
                     .line(2)
                     .column(time_col as u64 + 1)
                     .field(&header[time_col])
-                    .hint("write time in seconds (e.g. 0.0001) or as 2026-03-01T12:00:00.000123")),
+                    .hint("write time in seconds (e.g. 0.0001) or as 2026-03-01T12:00:00.000123"))
                 }
-            };
+            }
+        };
         let layout = Layout {
             delim,
             decimal_comma,
@@ -708,10 +709,19 @@ impl CsvSource {
             .nth(STEP_ESTIMATE_ROWS)
             .map(|i| i + 1)
             .unwrap_or(buf.len());
-        let _ = parse_region(&buf[..limit], &layout, &mut probe);
+        let probe_result = parse_region(&buf[..limit], &layout, &mut probe);
         let n = probe.time.len();
-        let nominal_step = if n >= 2 {
-            (probe.time[n - 1] - probe.time[0]) / (n - 1) as f64
+        // The median step: robust against a gap or a repeated row among the
+        // first rows (those are reported by the time check with their line).
+        let mut steps: Vec<f64> = probe
+            .time
+            .windows(2)
+            .map(|w| w[1] - w[0])
+            .filter(|d| *d > 0.0 && d.is_finite())
+            .collect();
+        steps.sort_by(f64::total_cmp);
+        let nominal_step = if n >= 2 && !steps.is_empty() {
+            steps[steps.len() / 2]
         } else {
             f64::NAN
         };
@@ -728,6 +738,11 @@ impl CsvSource {
             slot_keys,
             header,
         };
+        // A bad row among the first rows is reported now, with its place,
+        // rather than as a failure to find the sample rate.
+        if let Err(PartError { line, problem }) = probe_result {
+            return Err(src.part_error(src.first_data_line + line, problem));
+        }
         if nominal_step.is_finite() && nominal_step > 0.0 {
             src.info.sample_rate_hz = 1.0 / nominal_step;
         }

@@ -274,6 +274,46 @@ pub struct RecordingInfo {
 }
 
 impl RecordingInfo {
+    /// Facts for samples held in memory, all channels in per unit (status 0/1):
+    /// for tests, benchmarks and callers that build signals themselves.
+    pub fn in_memory(keys: &[ChannelKey], sample_rate_hz: f64, connection: Connection) -> Self {
+        let kind = if keys.contains(&ChannelKey::VPos) {
+            RecordingKind::RmsLevel
+        } else {
+            RecordingKind::Waveform
+        };
+        RecordingInfo {
+            path: "(memory)".into(),
+            format: "memory".into(),
+            kind,
+            connection,
+            channels: keys
+                .iter()
+                .enumerate()
+                .map(|(i, k)| ChannelInfo {
+                    key: *k,
+                    source: k.name().into(),
+                    index: i,
+                    unit: "pu".into(),
+                    scale: 1.0,
+                    canonical_unit: if *k == ChannelKey::Status {
+                        "0/1"
+                    } else {
+                        "pu"
+                    },
+                })
+                .collect(),
+            unmapped: Vec::new(),
+            samples: 0,
+            sample_rate_hz,
+            first_time: "0".into(),
+            duration_s: 0.0,
+            max_step_deviation: 0.0,
+            header: Vec::new(),
+            notes: Vec::new(),
+        }
+    }
+
     pub fn has(&self, key: ChannelKey) -> bool {
         self.channels.iter().any(|c| c.key == key)
     }
