@@ -27,6 +27,48 @@ pub enum Command {
     Inspect(Box<InspectArgs>),
     /// Write a synthetic recording of a specified dip and unit response (for demos and tests).
     Synth(Box<SynthArgs>),
+    /// Check recordings against a rule set: a test plan, or recordings with --rules.
+    Check(Box<CheckArgs>),
+    /// Work with rule sets.
+    Rules(RulesArgs),
+}
+
+#[derive(Args, Debug)]
+#[command(
+    after_help = "Exit status: 0 every test passed (or was not applicable), 1 some test failed or was inconclusive, 2 the input could not be used."
+)]
+pub struct CheckArgs {
+    /// A test plan (PLAN.yaml), or recordings when --rules is given.
+    #[arg(required = true, value_name = "PLAN|RECORDING")]
+    pub inputs: Vec<PathBuf>,
+    /// Rule set for a one-off check of the recordings given (no plan file).
+    #[arg(long, value_name = "RULES.yaml")]
+    pub rules: Option<PathBuf>,
+    /// Directory for the evidence pack (results.json, summary.csv, ...).
+    #[arg(long, default_value = "holdfast-report", value_name = "DIR")]
+    pub out: PathBuf,
+    /// Tests evaluated at once (0: one per core).
+    #[arg(long, default_value_t = 0, value_name = "N")]
+    pub jobs: usize,
+    #[command(flatten)]
+    pub ratings: RatingArgs,
+    #[command(flatten)]
+    pub map: MapArgs,
+}
+
+#[derive(Args, Debug)]
+pub struct RulesArgs {
+    #[command(subcommand)]
+    pub command: RulesCommand,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum RulesCommand {
+    /// Validate a rule set; reports every problem found, with line and column.
+    Lint {
+        /// Rule-set file (YAML).
+        file: PathBuf,
+    },
 }
 
 /// The unit's ratings (shared by `inspect` and the one-off `check`).
@@ -147,6 +189,7 @@ impl MapArgs {
         }
         Ok(ImportOptions {
             step_tolerance: self.step_tolerance,
+            threads: 0,
         })
     }
 }
@@ -175,6 +218,7 @@ pub struct InspectArgs {
 }
 
 #[derive(Args, Debug)]
+#[command(args_override_self = true)]
 pub struct SynthArgs {
     /// Output file (CSV).
     #[arg(long, short, value_name = "FILE")]
@@ -213,6 +257,9 @@ pub struct SynthArgs {
     /// Voltage after the fault, pu.
     #[arg(long, default_value_t = 1.0)]
     pub recovery: f64,
+    /// Voltage before the fault, pu.
+    #[arg(long, default_value_t = 1.0)]
+    pub prefault: f64,
     /// Pre-fault active power, pu.
     #[arg(long, default_value_t = 0.8)]
     pub p0: f64,

@@ -85,3 +85,30 @@ impl fmt::Display for UsageError {
 }
 
 impl std::error::Error for UsageError {}
+
+/// Several input problems found in one run (e.g. by `rules lint`).
+#[derive(Debug, Clone, PartialEq)]
+pub struct InputErrors(pub Vec<InputError>);
+
+impl fmt::Display for InputErrors {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        for (i, e) in self.0.iter().enumerate() {
+            if i > 0 {
+                writeln!(f)?;
+            }
+            write!(f, "{e}")?;
+        }
+        if self.0.len() > 1 {
+            write!(f, "\n({} problems)", self.0.len())?;
+        }
+        Ok(())
+    }
+}
+
+impl std::error::Error for InputErrors {}
+
+impl From<InputError> for InputErrors {
+    fn from(e: InputError) -> Self {
+        InputErrors(vec![e])
+    }
+}

@@ -21,7 +21,11 @@
 pub mod analysis;
 pub mod cli;
 pub mod commands;
+pub mod digest;
 pub mod error;
 pub mod import;
 pub mod model;
+pub mod plan;
+pub mod report;
+pub mod rules;
 pub mod synth;

@@ -12,7 +12,8 @@
 //!   `iq += (target − iq)·(1 − e^(−Δt/τ))`);
 //! * active current keeps its pre-fault value unless the current limit
 //!   needs room, and after the fault ramps back at a set rate;
-//! * optional negative-sequence reactive current `iq2 = −k2·|V2|` (inductive);
+//! * optional negative-sequence reactive current `iq2 = −k2·(|V2| − db)`
+//!   (inductive; same dead-band law as the positive sequence);
 //! * an optional trip (current and status to zero) or momentary blocking.
 //!
 //! The controller sees the true fundamental voltage, so analysing the file
@@ -65,6 +66,8 @@ pub struct SynthSpec {
     pub phase_jump_deg: f64,
     /// Voltage after the fault, pu.
     pub recovery_pu: f64,
+    /// Voltage before the fault, pu (the controller's reference).
+    pub prefault_pu: f64,
     pub p0_pu: f64,
     pub q0_pu: f64,
     pub k_gain: f64,
@@ -108,6 +111,7 @@ impl SynthSpec {
             residual_pu: [0.2; 3],
             phase_jump_deg: 0.0,
             recovery_pu: 1.0,
+            prefault_pu: 1.0,
             p0_pu: 0.8,
             q0_pu: 0.0,
             k_gain: 2.0,
@@ -166,7 +170,10 @@ impl SynthSpec {
         if !(self.iq_tau_s >= 0.0) || !(self.noise_pu >= 0.0) || !(self.p_ramp_pu_per_s > 0.0) {
             return Err("--iq-tau, --noise must be >= 0 and --p-ramp > 0".into());
         }
-        if self.p0_pu.hypot(self.q0_pu) > self.current_limit_pu {
+        if !(self.prefault_pu > 0.5 && self.prefault_pu < 1.5) {
+            return Err("--prefault must be between 0.5 and 1.5 pu".into());
+        }
+        if self.p0_pu.hypot(self.q0_pu) / self.prefault_pu > self.current_limit_pu {
             return Err("pre-fault P and Q exceed the current limit".into());
         }
         if self.decimal_comma && self.delimiter == b',' {
@@ -196,8 +203,8 @@ pub fn write_csv(spec: &SynthSpec, out: &mut dyn Write) -> std::io::Result<u64> 
     let a2 = a * a;
     let jump = spec.phase_jump_deg.to_radians();
     let fault_end = spec.fault_start_s + spec.fault_duration_s;
-    let ip0 = spec.p0_pu; // pre-fault voltage is 1 pu
-    let iq0 = spec.q0_pu;
+    let ip0 = spec.p0_pu / spec.prefault_pu;
+    let iq0 = spec.q0_pu / spec.prefault_pu;
     let mut unit = Unit {
         ip: ip0,
         iq: iq0,
@@ -250,14 +257,14 @@ pub fn write_csv(spec: &SynthSpec, out: &mut dyn Write) -> std::io::Result<u64> 
         } else if after {
             ([spec.recovery_pu; 3], 0.0)
         } else {
-            ([1.0; 3], 0.0)
+            ([spec.prefault_pu; 3], 0.0)
         };
         let va = Complex64::from_polar(mags[0], ang);
         let vb = Complex64::from_polar(mags[1], ang - 2.0 * PI / 3.0);
         let vc = Complex64::from_polar(mags[2], ang + 2.0 * PI / 3.0);
         let [_, v1, v2] = sequence::sequences(va, vb, vc);
         // Unit response.
-        let dv = v1.norm() - 1.0;
+        let dv = v1.norm() - spec.prefault_pu;
         let tripped = spec.trip_at_s.is_some_and(|tt| t >= tt);
         let blocked = spec.block.is_some_and(|(b0, b1)| t >= b0 && t < b1);
         let extra = if dv.abs() > spec.dead_band_pu {
@@ -280,7 +287,15 @@ pub fn write_csv(spec: &SynthSpec, out: &mut dyn Write) -> std::io::Result<u64> 
             let room = (lim * lim - unit.iq * unit.iq).max(0.0).sqrt();
             unit.ip = (unit.ip + spec.p_ramp_pu_per_s * dt).min(ip0).min(room);
         }
-        let iq2_target = -spec.k2_gain * v2.norm();
+        let v2m = v2.norm();
+        let iq2_target = if v2m > spec.dead_band_pu {
+            match spec.dead_band_mode {
+                DeadBandMode::Offset => -spec.k2_gain * (v2m - spec.dead_band_pu),
+                DeadBandMode::Full => -spec.k2_gain * v2m,
+            }
+        } else {
+            0.0
+        };
         iq2 += (iq2_target - iq2) * alpha;
         let (ip, iq, iq2n) = if tripped || blocked {
             (0.0, 0.0, 0.0)

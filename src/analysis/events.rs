@@ -16,7 +16,9 @@ use super::{Quantity, Series};
 use serde::{Deserialize, Serialize};
 
 /// Which voltage a rule set judges.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, Default)]
+#[derive(
+    Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, Default, schemars::JsonSchema,
+)]
 #[serde(rename_all = "snake_case")]
 pub enum ApplicableVoltage {
     #[default]

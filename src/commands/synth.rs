@@ -117,6 +117,7 @@ pub fn spec_from_args(a: &SynthArgs) -> Result<SynthSpec, UsageError> {
         residual_pu,
         phase_jump_deg: a.phase_jump,
         recovery_pu: a.recovery,
+        prefault_pu: a.prefault,
         p0_pu: a.p0,
         q0_pu: a.q0,
         k_gain: a.k_gain,

@@ -824,10 +824,13 @@ impl Source for CsvSource {
     }
 
     fn stream(mut self: Box<Self>, sink: &mut dyn FrameSink) -> Result<RecordingInfo, InputError> {
-        let threads = std::thread::available_parallelism()
-            .map(|n| n.get())
-            .unwrap_or(1)
-            .clamp(1, 8);
+        let threads = match self.opts.threads {
+            0 => std::thread::available_parallelism()
+                .map(|n| n.get())
+                .unwrap_or(1)
+                .clamp(1, 8),
+            n => n,
+        };
         let nslots = self.slot_keys.len();
         let mut parts: Vec<Part> = (0..threads).map(|_| Part::default()).collect();
         let mut line_base = self.first_data_line;

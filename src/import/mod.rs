@@ -39,12 +39,16 @@ pub struct ImportOptions {
     /// Largest accepted deviation of one sample step from the nominal step,
     /// as a fraction of the nominal step.
     pub step_tolerance: f64,
+    /// Threads for parsing one file (0: all cores). Set 1 when many files
+    /// are read in parallel.
+    pub threads: usize,
 }
 
 impl Default for ImportOptions {
     fn default() -> Self {
         ImportOptions {
             step_tolerance: 0.10,
+            threads: 0,
         }
     }
 }

@@ -1,0 +1,292 @@
+//! `holdfast check`: the main job. Evaluates every test of a plan (or the
+//! recordings of a one-off check), in parallel, and writes the evidence pack.
+
+use crate::analysis::{analyse, AnalysisSettings, POINTS_PER_CYCLE};
+use crate::cli::{CheckArgs, CAUTION};
+use crate::error::{InputError, InputErrors, UsageError};
+use crate::import::{self, ImportOptions};
+use crate::model::{Ratings, RecordingKind};
+use crate::plan::{self, ResolvedTest};
+use crate::report;
+use crate::rules::engine;
+use crate::rules::result::{FileRef, RecordingResult, Results, TestResult, Tool, Verdict};
+use crate::rules::{self, LoadedRules};
+use anyhow::Context;
+use rayon::prelude::*;
+use std::io::{IsTerminal, Write};
+use std::path::{Path, PathBuf};
+
+/// What a run checks, after the inputs were read and validated.
+pub struct Job {
+    pub plan: Option<(PathBuf, String)>,
+    pub unit_name: Option<String>,
+    pub ratings: Ratings,
+    pub rules: Vec<LoadedRules>,
+    pub tests: Vec<ResolvedTest>,
+    pub options: ImportOptions,
+}
+
+fn file_ref(r: &LoadedRules) -> FileRef {
+    FileRef {
+        id: Some(r.rules.id.clone()),
+        path: r.path.display().to_string(),
+        sha256: r.sha256.clone(),
+        title: Some(r.rules.title.clone()),
+        source: Some(r.rules.source.clone()),
+    }
+}
+
+fn load_rules(paths: &[PathBuf]) -> Result<Vec<LoadedRules>, InputErrors> {
+    let mut out = Vec::new();
+    let mut errs = Vec::new();
+    for p in paths {
+        match rules::load(p) {
+            Ok(r) => out.push(r),
+            Err(e) => errs.extend(e.0),
+        }
+    }
+    if errs.is_empty() {
+        Ok(out)
+    } else {
+        Err(InputErrors(errs))
+    }
+}
+
+/// Builds the job from the command line.
+pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
+    let mut options = args.map.import_options()?;
+    match &args.rules {
+        None => {
+            if args.inputs.len() != 1 {
+                return Err(UsageError(
+                    "give one test plan, or recordings together with --rules R.yaml".into(),
+                )
+                .into());
+            }
+            if args.ratings.rated_kv.is_some() || !args.map.map.is_empty() {
+                return Err(UsageError(
+                    "rating and --map flags belong to the one-off form (--rules); a plan has its own unit and channels blocks"
+                        .into(),
+                )
+                .into());
+            }
+            let lp = plan::load(&args.inputs[0])?;
+            let rules = load_rules(&lp.rule_files)?;
+            options.threads = 0;
+            Ok(Job {
+                plan: Some((lp.path.clone(), lp.sha256.clone())),
+                unit_name: lp.plan.unit.name.clone(),
+                ratings: lp.ratings,
+                rules,
+                tests: lp.tests,
+                options,
+            })
+        }
+        Some(rp) => {
+            let ratings = args.ratings.ratings()?;
+            let frequency = args
+                .ratings
+                .frequency
+                .ok_or_else(|| UsageError("a one-off check needs --frequency (50 or 60)".into()))?;
+            let map = args.map.channel_map()?;
+            // Per-unit-only recordings need no ratings; the analysis says so otherwise.
+            let ratings = ratings.map_or(
+                Ratings {
+                    rated_kv: f64::NAN,
+                    rated_mva: f64::NAN,
+                    frequency_hz: frequency,
+                },
+                |mut r| {
+                    r.frequency_hz = frequency;
+                    r
+                },
+            );
+            let rules = load_rules(std::slice::from_ref(rp))?;
+            let mut seen = std::collections::HashMap::new();
+            let tests = args
+                .inputs
+                .iter()
+                .map(|f| {
+                    let stem = f
+                        .file_stem()
+                        .map(|s| s.to_string_lossy().to_string())
+                        .unwrap_or_else(|| f.display().to_string());
+                    let n = seen.entry(stem.clone()).or_insert(0);
+                    *n += 1;
+                    let id = if *n == 1 { stem } else { format!("{stem}-{n}") };
+                    ResolvedTest {
+                        id,
+                        file: f.clone(),
+                        map: map.clone(),
+                        expect: None,
+                        rules: 0,
+                        description: None,
+                    }
+                })
+                .collect();
+            Ok(Job {
+                plan: None,
+                unit_name: None,
+                ratings,
+                rules,
+                tests,
+                options,
+            })
+        }
+    }
+}
+
+/// Evaluates one test.
+pub fn run_test(
+    test: &ResolvedTest,
+    rules: &LoadedRules,
+    ratings: &Ratings,
+    opts: &ImportOptions,
+) -> Result<TestResult, InputError> {
+    let source = import::open(&test.file, &test.map, opts)?;
+    let settings = AnalysisSettings {
+        ratings: ratings.rated_kv.is_finite().then_some(*ratings),
+        frequency_hz: ratings.frequency_hz,
+        points_per_cycle: POINTS_PER_CYCLE,
+    };
+    let analysed = analyse(source, &settings)?;
+    let det = engine::detection_settings(&rules.rules, ratings.frequency_hz);
+    let outcome = engine::evaluate(&analysed.series, &rules.rules, &det, test.expect.as_ref());
+    let sha256 = crate::digest::sha256_file(&test.file)
+        .map_err(|e| InputError::new(&test.file, format!("cannot read recording: {e}")))?;
+    let info = &analysed.info;
+    let mut notes = info.notes.clone();
+    notes.extend(outcome.notes);
+    Ok(TestResult {
+        id: test.id.clone(),
+        recording: RecordingResult {
+            path: test.file.display().to_string(),
+            sha256,
+            sample_rate_hz: info.sample_rate_hz,
+            duration_s: info.duration_s,
+            format: Some(info.format.clone()),
+            kind: Some(
+                match info.kind {
+                    RecordingKind::Waveform => "waveform",
+                    RecordingKind::RmsLevel => "rms_level",
+                }
+                .into(),
+            ),
+            samples: Some(info.samples),
+            header: info.header.clone(),
+        },
+        verdict: outcome.verdict,
+        disturbances: outcome.disturbances.iter().map(Into::into).collect(),
+        trip: (&outcome.trip).into(),
+        checks: outcome.checks,
+        rules: (test.rules != 0).then(|| file_ref(rules)),
+        notes,
+    })
+}
+
+/// Runs every test of the job in parallel; all input errors are collected.
+pub fn run_job(job: &Job, jobs: usize, progress: bool) -> Result<Results, InputErrors> {
+    let mut opts = job.options;
+    if job.tests.len() > 1 {
+        opts.threads = 1; // files in parallel, one parsing thread each
+    }
+    let bar = if progress {
+        indicatif::ProgressBar::new(job.tests.len() as u64)
+    } else {
+        indicatif::ProgressBar::hidden()
+    };
+    bar.set_style(
+        indicatif::ProgressStyle::with_template("{bar:40} {pos}/{len} tests {msg}")
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+    );
+    let work = || {
+        job.tests
+            .par_iter()
+            .map(|t| {
+                let r = run_test(t, &job.rules[t.rules], &job.ratings, &opts);
+                bar.inc(1);
+                r
+            })
+            .collect::<Vec<_>>()
+    };
+    let outcomes = if jobs > 0 {
+        match rayon::ThreadPoolBuilder::new().num_threads(jobs).build() {
+            Ok(pool) => pool.install(work),
+            Err(_) => work(),
+        }
+    } else {
+        work()
+    };
+    bar.finish_and_clear();
+    let mut tests = Vec::new();
+    let mut errs = Vec::new();
+    for o in outcomes {
+        match o {
+            Ok(t) => tests.push(t),
+            Err(e) => errs.push(e),
+        }
+    }
+    if !errs.is_empty() {
+        return Err(InputErrors(errs));
+    }
+    let verdict = Verdict::combine(tests.iter().map(|t| t.verdict));
+    Ok(Results {
+        schema_version: 1,
+        tool: Tool {
+            name: "holdfast".into(),
+            version: env!("CARGO_PKG_VERSION").into(),
+        },
+        plan: job.plan.as_ref().map(|(p, sha)| FileRef {
+            id: None,
+            path: p.display().to_string(),
+            sha256: sha.clone(),
+            title: None,
+            source: None,
+        }),
+        rules: file_ref(&job.rules[0]),
+        verdict,
+        tests,
+        unit: job.unit_name.clone(),
+        generated_utc: Some(chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true)),
+        command_line: Some(command_line()),
+        caution: Some(CAUTION.into()),
+    })
+}
+
+fn command_line() -> String {
+    std::env::args()
+        .map(|a| {
+            if a.is_empty() || a.contains(|c: char| c.is_whitespace() || "'\"$`\\".contains(c)) {
+                format!("'{}'", a.replace('\'', "'\\''"))
+            } else {
+                a
+            }
+        })
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
+/// Writes the evidence pack into `dir`.
+pub fn write_pack(results: &Results, dir: &Path) -> anyhow::Result<()> {
+    std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
+    report::write_json(results, &dir.join("results.json"))?;
+    report::summary_csv::write(results, &dir.join("summary.csv"))?;
+    Ok(())
+}
+
+pub fn run(args: &CheckArgs) -> anyhow::Result<u8> {
+    let job = job_from_args(args)?;
+    let results = run_job(&job, args.jobs, std::io::stderr().is_terminal())?;
+    write_pack(&results, &args.out)?;
+    let stdout = std::io::stdout();
+    let tty = stdout.is_terminal();
+    let mut out = stdout.lock();
+    write!(out, "{}", report::table::render(&results, tty))?;
+    writeln!(out, "\nEvidence pack: {}", args.out.display())?;
+    writeln!(out, "{CAUTION}")?;
+    Ok(if results.verdict == Verdict::Pass {
+        0
+    } else {
+        1
+    })
+}

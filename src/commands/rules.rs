@@ -1,0 +1,42 @@
+//! `holdfast rules ...`: work with rule sets.
+
+use crate::cli::{RulesArgs, RulesCommand};
+use crate::rules::spec::CheckSpec;
+use std::io::Write;
+
+pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
+    match &args.command {
+        RulesCommand::Lint { file } => {
+            let loaded = crate::rules::load(file)?;
+            let r = &loaded.rules;
+            let mut out = std::io::stdout().lock();
+            writeln!(out, "{}: ok", file.display())?;
+            writeln!(out, "  id      {}", r.id)?;
+            writeln!(out, "  title   {}", r.title)?;
+            writeln!(out, "  source  {}", r.source)?;
+            writeln!(out, "  voltage {}", r.applicable_voltage.name())?;
+            writeln!(
+                out,
+                "  disturbance below {} pu / above {} pu, hysteresis {} pu",
+                r.disturbance.below_pu, r.disturbance.above_pu, r.disturbance.hysteresis_pu
+            )?;
+            for c in &r.checks {
+                let what = match c {
+                    CheckSpec::Envelope(e) => format!("{:?} envelope, {} points", e.bound, e.points.len()).to_lowercase(),
+                    CheckSpec::DurationTable(t) => format!("{:?} duration table, {} rows, {:?}", t.side, t.rows.len(), t.mode).to_lowercase(),
+                    CheckSpec::ReactiveCurrent(q) => format!(
+                        "{:?}-sequence reactive current, k = {}, dead band {} pu ({:?}), rise {} s, settling {} s",
+                        q.sequence, q.gain, q.dead_band_pu, q.dead_band_mode, q.rise_time_s, q.settling_time_s
+                    )
+                    .to_lowercase(),
+                    CheckSpec::ActivePowerRecovery(a) => format!(
+                        "active power to {} of pre-fault within {} s (from {} pu loading)",
+                        a.fraction, a.within_s, a.min_prefault_pu
+                    ),
+                };
+                writeln!(out, "  check   {:<14} {what}", c.id())?;
+            }
+            Ok(0)
+        }
+    }
+}

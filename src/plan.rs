@@ -1,0 +1,336 @@
+//! Test plans (`PLAN.yaml`): the unit, the rule set, channel mapping and the
+//! tests. Paths are relative to the plan file.
+
+use crate::error::{InputError, InputErrors};
+use crate::import::ChannelMap;
+use crate::model::{ChannelKey, Connection, CurrentUnit, Ratings, VoltageUnit};
+use crate::rules::locate::locate;
+use crate::rules::realisation::Expect;
+use crate::rules::yaml;
+use schemars::JsonSchema;
+use serde::{Deserialize, Serialize};
+use std::path::{Path, PathBuf};
+
+#[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct Plan {
+    pub unit: UnitSpec,
+    /// Rule set file, relative to the plan.
+    pub rules: String,
+    /// Default channel mapping for every recording.
+    #[serde(default)]
+    pub channels: Option<ChannelsSpec>,
+    pub tests: Vec<TestSpec>,
+}
+
+#[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct UnitSpec {
+    /// Free text.
+    #[serde(default)]
+    pub name: Option<String>,
+    /// Rated line-to-line RMS voltage, kV.
+    pub rated_voltage_kv: f64,
+    /// Rated apparent power, MVA.
+    pub rated_power_mva: f64,
+    /// Nominal frequency, Hz.
+    pub frequency_hz: f64,
+}
+
+#[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Default)]
+#[serde(deny_unknown_fields)]
+pub struct PhaseColumns {
+    #[serde(default)]
+    pub a: Option<String>,
+    #[serde(default)]
+    pub b: Option<String>,
+    #[serde(default)]
+    pub c: Option<String>,
+    /// V, kV or pu (voltage); A, kA or pu (current).
+    #[serde(default)]
+    pub unit: Option<String>,
+    /// phase_to_neutral or phase_to_phase (voltage only).
+    #[serde(default)]
+    pub connection: Option<String>,
+}
+
+/// Column (CSV) or channel (COMTRADE) names for the model's channels.
+#[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Default)]
+#[serde(deny_unknown_fields)]
+pub struct ChannelsSpec {
+    #[serde(default)]
+    pub time: Option<String>,
+    #[serde(default)]
+    pub voltage: Option<PhaseColumns>,
+    #[serde(default)]
+    pub current: Option<PhaseColumns>,
+    /// Status (breaker) channel: 1 = connected.
+    #[serde(default)]
+    pub status: Option<String>,
+    #[serde(default)]
+    pub v_pos: Option<String>,
+    #[serde(default)]
+    pub p: Option<String>,
+    #[serde(default)]
+    pub q: Option<String>,
+    #[serde(default)]
+    pub ip: Option<String>,
+    #[serde(default)]
+    pub iq: Option<String>,
+}
+
+#[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct TestSpec {
+    pub id: String,
+    /// Recording, relative to the plan.
+    pub file: String,
+    /// Overrides of the plan's channel mapping, key by key.
+    #[serde(default)]
+    pub channels: Option<ChannelsSpec>,
+    #[serde(default)]
+    pub expect: Option<Expect>,
+    /// A rule set for this test instead of the plan's.
+    #[serde(default)]
+    pub rules: Option<String>,
+    /// Free-text description.
+    #[serde(default)]
+    pub description: Option<String>,
+}
+
+impl ChannelsSpec {
+    /// `other`'s keys replace this one's.
+    pub fn merged(&self, other: Option<&ChannelsSpec>) -> ChannelsSpec {
+        let Some(o) = other else { return self.clone() };
+        let phase = |a: &Option<PhaseColumns>, b: &Option<PhaseColumns>| match (a, b) {
+            (Some(a), Some(b)) => Some(PhaseColumns {
+                a: b.a.clone().or(a.a.clone()),
+                b: b.b.clone().or(a.b.clone()),
+                c: b.c.clone().or(a.c.clone()),
+                unit: b.unit.clone().or(a.unit.clone()),
+                connection: b.connection.clone().or(a.connection.clone()),
+            }),
+            (a, b) => b.clone().or(a.clone()),
+        };
+        let rms_given = o.v_pos.is_some();
+        ChannelsSpec {
+            time: o.time.clone().or(self.time.clone()),
+            // An RMS-level override drops the plan's phase mapping.
+            voltage: if rms_given {
+                o.voltage.clone()
+            } else {
+                phase(&self.voltage, &o.voltage)
+            },
+            current: if rms_given {
+                o.current.clone()
+            } else {
+                phase(&self.current, &o.current)
+            },
+            status: o.status.clone().or(self.status.clone()),
+            v_pos: o.v_pos.clone().or(self.v_pos.clone()),
+            p: o.p.clone().or(self.p.clone()),
+            q: o.q.clone().or(self.q.clone()),
+            ip: o.ip.clone().or(self.ip.clone()),
+            iq: o.iq.clone().or(self.iq.clone()),
+        }
+    }
+
+    /// The importer's channel map, or what is wrong (key, message).
+    pub fn to_map(&self) -> Result<ChannelMap, (&'static str, String)> {
+        let mut m = ChannelMap {
+            time: self.time.clone(),
+            ..Default::default()
+        };
+        if let Some(v) = &self.voltage {
+            for (k, c) in [
+                (ChannelKey::Va, &v.a),
+                (ChannelKey::Vb, &v.b),
+                (ChannelKey::Vc, &v.c),
+            ] {
+                if let Some(c) = c {
+                    m.keys.push((k, c.clone()));
+                }
+            }
+            if let Some(u) = &v.unit {
+                m.voltage_unit = Some(
+                    VoltageUnit::parse(u)
+                        .ok_or(("unit", format!("voltage unit '{u}': use V, kV or pu")))?,
+                );
+            }
+            if let Some(c) = &v.connection {
+                m.connection = Some(Connection::parse(c).ok_or((
+                    "connection",
+                    format!("connection '{c}': use phase_to_neutral or phase_to_phase"),
+                ))?);
+            }
+        }
+        if let Some(i) = &self.current {
+            for (k, c) in [
+                (ChannelKey::Ia, &i.a),
+                (ChannelKey::Ib, &i.b),
+                (ChannelKey::Ic, &i.c),
+            ] {
+                if let Some(c) = c {
+                    m.keys.push((k, c.clone()));
+                }
+            }
+            if let Some(u) = &i.unit {
+                m.current_unit = Some(
+                    CurrentUnit::parse(u)
+                        .ok_or(("unit", format!("current unit '{u}': use A, kA or pu")))?,
+                );
+            }
+            if i.connection.is_some() {
+                return Err((
+                    "connection",
+                    "a connection is only given for voltages".into(),
+                ));
+            }
+        }
+        for (k, c) in [
+            (ChannelKey::Status, &self.status),
+            (ChannelKey::VPos, &self.v_pos),
+            (ChannelKey::P, &self.p),
+            (ChannelKey::Q, &self.q),
+            (ChannelKey::Ip, &self.ip),
+            (ChannelKey::Iq, &self.iq),
+        ] {
+            if let Some(c) = c {
+                m.keys.push((k, c.clone()));
+            }
+        }
+        Ok(m)
+    }
+}
+
+/// One test, resolved: paths absolute-or-relative to the working directory.
+#[derive(Clone, Debug)]
+pub struct ResolvedTest {
+    pub id: String,
+    pub file: PathBuf,
+    pub map: ChannelMap,
+    pub expect: Option<Expect>,
+    /// Index into [`LoadedPlan::rule_files`].
+    pub rules: usize,
+    pub description: Option<String>,
+}
+
+#[derive(Clone, Debug)]
+pub struct LoadedPlan {
+    pub plan: Plan,
+    pub path: PathBuf,
+    pub sha256: String,
+    pub ratings: Ratings,
+    /// Rule-set files: the plan's first, then per-test ones.
+    pub rule_files: Vec<PathBuf>,
+    pub tests: Vec<ResolvedTest>,
+}
+
+/// Loads and validates a plan; all problems are reported at once.
+pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
+    let text = yaml::read_text(path, "test plan")?;
+    let plan: Plan = yaml::parse(path, &text)?;
+    let dir = path.parent().unwrap_or(Path::new(""));
+    let mut errs = Vec::new();
+    let mut err = |item: Option<usize>, key: &'static str, msg: String| {
+        let mut e = InputError::new(path, msg).field(match item {
+            Some(i) => format!("tests[{i}] ({}).{key}", plan.tests[i].id),
+            None => key.to_string(),
+        });
+        if let Some((l, c)) = locate(&text, "tests", item, key) {
+            e = e.line(l).column(c);
+        }
+        errs.push(e);
+    };
+    let u = &plan.unit;
+    if !(u.rated_voltage_kv > 0.0 && u.rated_voltage_kv.is_finite()) {
+        err(
+            None,
+            "rated_voltage_kv",
+            format!("rated_voltage_kv {} must be positive", u.rated_voltage_kv),
+        );
+    }
+    if !(u.rated_power_mva > 0.0 && u.rated_power_mva.is_finite()) {
+        err(
+            None,
+            "rated_power_mva",
+            format!("rated_power_mva {} must be positive", u.rated_power_mva),
+        );
+    }
+    if !(u.frequency_hz > 0.0 && u.frequency_hz <= 1000.0) {
+        err(
+            None,
+            "frequency_hz",
+            format!(
+                "frequency_hz {} must be a nominal frequency such as 50 or 60",
+                u.frequency_hz
+            ),
+        );
+    }
+    if plan.tests.is_empty() {
+        err(None, "tests", "the plan has no tests".into());
+    }
+    let defaults = plan.channels.clone().unwrap_or_default();
+    if let Err((key, m)) = defaults.to_map() {
+        err(None, key, m);
+    }
+    let mut rule_files = vec![dir.join(&plan.rules)];
+    let mut tests = Vec::new();
+    let mut seen = std::collections::HashSet::new();
+    for (i, t) in plan.tests.iter().enumerate() {
+        if t.id.trim().is_empty() {
+            err(Some(i), "id", "test id is empty".into());
+        } else if !seen.insert(t.id.clone()) {
+            err(Some(i), "id", format!("test id '{}' is used twice", t.id));
+        }
+        if t.file.trim().is_empty() {
+            err(Some(i), "file", "file is empty".into());
+        }
+        if let Some(e) = &t.expect {
+            for (key, m) in e.problems() {
+                err(Some(i), key, m);
+            }
+        }
+        let rules = match &t.rules {
+            Some(r) => {
+                let p = dir.join(r);
+                match rule_files.iter().position(|x| *x == p) {
+                    Some(k) => k,
+                    None => {
+                        rule_files.push(p);
+                        rule_files.len() - 1
+                    }
+                }
+            }
+            None => 0,
+        };
+        match defaults.merged(t.channels.as_ref()).to_map() {
+            Ok(map) => tests.push(ResolvedTest {
+                id: t.id.clone(),
+                file: dir.join(&t.file),
+                map,
+                expect: t.expect.clone(),
+                rules,
+                description: t.description.clone(),
+            }),
+            Err((key, m)) => err(Some(i), key, m),
+        }
+    }
+    if !errs.is_empty() {
+        return Err(InputErrors(errs));
+    }
+    let sha256 = crate::digest::sha256_file(path)
+        .map_err(|e| InputError::new(path, format!("cannot read test plan: {e}")))?;
+    Ok(LoadedPlan {
+        ratings: Ratings {
+            rated_kv: plan.unit.rated_voltage_kv,
+            rated_mva: plan.unit.rated_power_mva,
+            frequency_hz: plan.unit.frequency_hz,
+        },
+        plan,
+        path: path.to_path_buf(),
+        sha256,
+        rule_files,
+        tests,
+    })
+}

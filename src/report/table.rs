@@ -1,0 +1,80 @@
+//! The terminal table: one row per (test, check), colour only on a terminal.
+
+use super::fmt_value;
+use crate::rules::result::{Results, Verdict};
+use comfy_table::{presets, Cell, Color, ContentArrangement, Table};
+
+fn colour(v: Verdict) -> Color {
+    match v {
+        Verdict::Pass => Color::Green,
+        Verdict::Fail => Color::Red,
+        Verdict::Inconclusive => Color::Yellow,
+        Verdict::NotApplicable => Color::Grey,
+    }
+}
+
+/// Renders the results; `tty` chooses box drawing and colour.
+pub fn render(results: &Results, tty: bool) -> String {
+    let mut t = Table::new();
+    if tty {
+        t.load_style(presets::UTF8_FULL_CONDENSED);
+        t.set_content_arrangement(ContentArrangement::Dynamic);
+    } else {
+        t.load_style(presets::ASCII_MARKDOWN);
+        t.force_no_tty();
+        t.set_content_arrangement(ContentArrangement::Disabled);
+    }
+    t.set_header(vec![
+        "test", "check", "dist.", "verdict", "measured", "limit", "margin",
+    ]);
+    for test in &results.tests {
+        for (k, c) in test.checks.iter().enumerate() {
+            let verdict = Cell::new(c.verdict.name());
+            let verdict = if tty {
+                verdict.fg(colour(c.verdict))
+            } else {
+                verdict
+            };
+            t.add_row(vec![
+                Cell::new(if k == 0 { test.id.as_str() } else { "" }),
+                Cell::new(&c.id),
+                Cell::new(
+                    c.disturbance
+                        .map(|d| format!("#{d}"))
+                        .unwrap_or_else(|| "–".into()),
+                ),
+                verdict,
+                Cell::new(fmt_value(c.measured, &c.unit)),
+                Cell::new(fmt_value(c.limit, &c.unit)),
+                Cell::new(fmt_value(c.margin, &c.unit)),
+            ]);
+        }
+    }
+    let mut out = t.to_string();
+    out.push('\n');
+    let counts = results.counts();
+    out.push_str(&format!(
+        "\n{} tests: {} pass, {} fail, {} inconclusive. Overall: {}\n",
+        results.tests.len(),
+        counts[0].1,
+        counts[1].1,
+        counts[2].1,
+        results.verdict.name().to_uppercase()
+    ));
+    for test in results.tests.iter().filter(|t| t.verdict != Verdict::Pass) {
+        out.push_str(&format!(
+            "\n{} ({}): {}\n",
+            test.id,
+            test.recording.path,
+            test.verdict.name()
+        ));
+        for c in test
+            .checks
+            .iter()
+            .filter(|c| matches!(c.verdict, Verdict::Fail | Verdict::Inconclusive))
+        {
+            out.push_str(&format!("  {} {}: {}\n", c.id, c.verdict.name(), c.detail));
+        }
+    }
+    out
+}

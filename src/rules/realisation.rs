@@ -1,0 +1,189 @@
+//! Test realisation: did the recording apply the test the plan says it did?
+//! (domain reference §5). A mismatch makes the test inconclusive as evidence;
+//! it is not a failure of the unit.
+
+use super::result::{CheckResult, Verdict};
+use crate::analysis::events::{Balance, Disturbance};
+use schemars::JsonSchema;
+use serde::{Deserialize, Serialize};
+
+#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq)]
+#[serde(rename_all = "snake_case")]
+pub enum ExpectedKind {
+    Symmetrical,
+    Unbalanced,
+}
+
+/// What the test was meant to apply.
+#[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct Expect {
+    /// Residual applicable voltage during the fault, pu.
+    #[serde(default)]
+    pub residual_pu: Option<f64>,
+    /// Fault duration, s.
+    #[serde(default)]
+    pub duration_s: Option<f64>,
+    #[serde(default)]
+    pub kind: Option<ExpectedKind>,
+    /// Accepted difference of the residual voltage, pu (default 0.05).
+    #[serde(default = "d_res_tol")]
+    pub residual_tolerance_pu: f64,
+    /// Accepted difference of the duration, s (default 0.03: the one-cycle
+    /// phasor smears both edges of a dip by up to one 50 Hz cycle).
+    #[serde(default = "d_dur_tol")]
+    pub duration_tolerance_s: f64,
+    /// Which disturbance of the recording is the test (default 0, the first).
+    #[serde(default)]
+    pub disturbance: usize,
+}
+
+fn d_res_tol() -> f64 {
+    0.05
+}
+fn d_dur_tol() -> f64 {
+    0.03
+}
+
+impl Expect {
+    pub fn problems(&self) -> Vec<(&'static str, String)> {
+        let mut out = Vec::new();
+        if let Some(r) = self.residual_pu {
+            if !(0.0..=3.0).contains(&r) {
+                out.push(("residual_pu", format!("residual_pu {r} must be in [0, 3]")));
+            }
+        }
+        if let Some(d) = self.duration_s {
+            if !(d > 0.0 && d.is_finite()) {
+                out.push(("duration_s", format!("duration_s {d} must be positive")));
+            }
+        }
+        if !(self.residual_tolerance_pu > 0.0 && self.residual_tolerance_pu < 1.0) {
+            out.push((
+                "residual_tolerance_pu",
+                "residual_tolerance_pu must be in (0, 1)".into(),
+            ));
+        }
+        if !(self.duration_tolerance_s > 0.0 && self.duration_tolerance_s.is_finite()) {
+            out.push((
+                "duration_tolerance_s",
+                "duration_tolerance_s must be positive".into(),
+            ));
+        }
+        out
+    }
+}
+
+/// `residual` is the mean applicable voltage over the settled part.
+pub fn evaluate(
+    e: &Expect,
+    disturbances: &[Disturbance],
+    residual: impl Fn(&Disturbance) -> Option<f64>,
+) -> CheckResult {
+    let mut r = CheckResult::new("realisation", "test_realisation", Some(e.disturbance), "pu");
+    let Some(d) = disturbances.get(e.disturbance) else {
+        r.disturbance = None;
+        return r.verdict(
+            Verdict::Inconclusive,
+            format!(
+                "the plan expects disturbance #{} but the recording shows {}; this recording is not evidence of the planned test",
+                e.disturbance,
+                disturbances.len()
+            ),
+        );
+    };
+    let mut ok = Vec::new();
+    let mut bad = Vec::new();
+    let mut worst: Option<(f64, f64, f64, f64)> = None; // measured, limit, margin, at
+    if let Some(want) = e.residual_pu {
+        match residual(d) {
+            Some(got) => {
+                let m = e.residual_tolerance_pu - (got - want).abs();
+                let s = format!(
+                    "residual {got:.3} pu (planned {want:.3} ± {})",
+                    e.residual_tolerance_pu
+                );
+                if m >= 0.0 {
+                    ok.push(s)
+                } else {
+                    bad.push(s)
+                }
+                worst = Some((got, want, m, d.extreme_at_s));
+            }
+            None => bad.push("residual voltage cannot be measured (no settled part)".into()),
+        }
+    }
+    if let Some(want) = e.duration_s {
+        match d.duration_s() {
+            Some(got) => {
+                let m = e.duration_tolerance_s - (got - want).abs();
+                let s = format!(
+                    "duration {got:.3} s (planned {want:.3} ± {})",
+                    e.duration_tolerance_s
+                );
+                if m >= 0.0 {
+                    ok.push(s)
+                } else {
+                    bad.push(s)
+                }
+                if worst.is_none() {
+                    r.unit = "s".into();
+                    worst = Some((got, want, m, d.start_s));
+                }
+            }
+            None => bad.push(
+                "duration unknown: the voltage had not returned when the recording ends".into(),
+            ),
+        }
+    }
+    if let Some(k) = e.kind {
+        let got = d.balance;
+        let matches = matches!(
+            (k, got),
+            (ExpectedKind::Symmetrical, Balance::Symmetrical)
+                | (ExpectedKind::Unbalanced, Balance::Unbalanced)
+        );
+        let s = format!(
+            "{} (planned {})",
+            match got {
+                Balance::Symmetrical => "symmetrical",
+                Balance::Unbalanced => "unbalanced",
+                Balance::Undetermined => "balance undetermined",
+            },
+            match k {
+                ExpectedKind::Symmetrical => "symmetrical",
+                ExpectedKind::Unbalanced => "unbalanced",
+            }
+        );
+        if matches {
+            ok.push(s)
+        } else {
+            bad.push(s)
+        }
+    }
+    if let Some((m, l, mg, at)) = worst {
+        r.measured = Some(m);
+        r.limit = Some(l);
+        r.margin = Some(mg);
+        r.at_s = Some(at);
+    }
+    if bad.is_empty() {
+        r.verdict(
+            Verdict::Pass,
+            format!("the recording shows the planned test: {}", ok.join(", ")),
+        )
+    } else {
+        r.verdict(
+            Verdict::Inconclusive,
+            format!(
+                "the recording does not show the planned test: {}{}",
+                bad.join(", "),
+                if ok.is_empty() {
+                    String::new()
+                } else {
+                    format!(" (as planned: {})", ok.join(", "))
+                }
+            ),
+        )
+    }
+}

@@ -1,0 +1,295 @@
+//! The neutral result of checking recordings: what every reporter renders.
+//! Field names are the `results.json` schema version 1 (interfaces.md);
+//! additions are optional fields only.
+
+use schemars::JsonSchema;
+use serde::{Deserialize, Serialize};
+
+#[derive(
+    Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize, JsonSchema,
+)]
+#[serde(rename_all = "snake_case")]
+pub enum Verdict {
+    Pass,
+    NotApplicable,
+    Inconclusive,
+    Fail,
+}
+
+impl Verdict {
+    pub fn name(self) -> &'static str {
+        match self {
+            Verdict::Pass => "pass",
+            Verdict::Fail => "fail",
+            Verdict::Inconclusive => "inconclusive",
+            Verdict::NotApplicable => "not_applicable",
+        }
+    }
+
+    /// A test's verdict from its checks: fail if any fails, else inconclusive
+    /// if any is, else pass (not-applicable checks do not count).
+    pub fn combine(vs: impl IntoIterator<Item = Verdict>) -> Verdict {
+        let mut out = Verdict::Pass;
+        for v in vs {
+            match v {
+                Verdict::Fail => return Verdict::Fail,
+                Verdict::Inconclusive => out = Verdict::Inconclusive,
+                _ => {}
+            }
+        }
+        out
+    }
+}
+
+/// The verdict of one check for one disturbance.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct CheckResult {
+    pub id: String,
+    #[serde(rename = "type")]
+    pub check_type: String,
+    /// Index into the test's `disturbances`, or null when none applied.
+    pub disturbance: Option<usize>,
+    pub verdict: Verdict,
+    pub measured: Option<f64>,
+    pub limit: Option<f64>,
+    /// Positive inside the requirement, negative outside.
+    pub margin: Option<f64>,
+    /// Unit of measured, limit and margin: `pu` or `s`.
+    pub unit: String,
+    /// Time of the smallest margin, s from the first sample.
+    pub at_s: Option<f64>,
+    /// A plain sentence a reviewer can read without the manual.
+    pub detail: String,
+    /// Reactive current: measured settling time, s (null if it never settled).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub settling_time_s: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub required_gain: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub measured_gain: Option<f64>,
+    /// Reactive current: required extra current ΔIq, pu (settled mode).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub required_pu: Option<f64>,
+    /// Reactive current: mean measured ΔIq over the quasi-steady part, pu.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub measured_pu: Option<f64>,
+    /// Active power recovery: pre-fault active power, pu.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub prefault_pu: Option<f64>,
+    /// Ride-through checks: the voltage left the zone at this time, s.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub left_zone_s: Option<f64>,
+    /// Ride-through checks: the trip was permitted (after leaving the zone).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub permitted_trip: Option<bool>,
+}
+
+impl CheckResult {
+    pub fn new(id: &str, check_type: &str, disturbance: Option<usize>, unit: &str) -> Self {
+        CheckResult {
+            id: id.to_string(),
+            check_type: check_type.to_string(),
+            disturbance,
+            verdict: Verdict::Inconclusive,
+            measured: None,
+            limit: None,
+            margin: None,
+            unit: unit.to_string(),
+            at_s: None,
+            detail: String::new(),
+            settling_time_s: None,
+            required_gain: None,
+            measured_gain: None,
+            required_pu: None,
+            measured_pu: None,
+            prefault_pu: None,
+            left_zone_s: None,
+            permitted_trip: None,
+        }
+    }
+    pub fn verdict(mut self, v: Verdict, detail: impl Into<String>) -> Self {
+        self.verdict = v;
+        self.detail = detail.into();
+        self
+    }
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct DisturbanceResult {
+    /// `undervoltage` or `overvoltage`.
+    pub kind: String,
+    pub start_s: f64,
+    /// Null when the recording ends before the voltage returned.
+    pub end_s: Option<f64>,
+    pub extreme_pu: f64,
+    /// `symmetrical`, `unbalanced` or `undetermined`.
+    pub balance: String,
+    #[serde(default)]
+    pub extreme_at_s: Option<f64>,
+    #[serde(default)]
+    pub duration_s: Option<f64>,
+    /// Mean |V2|/|V1| over the settled part.
+    #[serde(default)]
+    pub unbalance_ratio: Option<f64>,
+    /// Mean positive-sequence voltage over the settled part, pu.
+    #[serde(default)]
+    pub residual_v1_pu: Option<f64>,
+    /// Mean phase-to-neutral voltages a, b, c over the settled part, pu.
+    #[serde(default)]
+    pub residual_phase_pu: Option<[f64; 3]>,
+    /// Pre-fault applicable voltage, pu.
+    #[serde(default)]
+    pub prefault_v_pu: Option<f64>,
+    #[serde(default)]
+    pub prefault_p_pu: Option<f64>,
+    #[serde(default)]
+    pub prefault_q_pu: Option<f64>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct TripResult {
+    pub tripped: bool,
+    pub time_s: Option<f64>,
+    /// `status`, `current` or `none` (cannot be seen).
+    #[serde(default)]
+    pub method: Option<String>,
+    /// Momentary cessation intervals `[from, to]`, s.
+    #[serde(default)]
+    pub cessations: Vec<[f64; 2]>,
+    #[serde(default)]
+    pub note: Option<String>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct RecordingResult {
+    pub path: String,
+    pub sha256: String,
+    pub sample_rate_hz: f64,
+    pub duration_s: f64,
+    #[serde(default)]
+    pub format: Option<String>,
+    /// `waveform` or `rms_level`.
+    #[serde(default)]
+    pub kind: Option<String>,
+    #[serde(default)]
+    pub samples: Option<u64>,
+    /// Format facts worth a reviewer's eye (e.g. COMTRADE station, revision).
+    #[serde(default)]
+    pub header: Vec<(String, String)>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct TestResult {
+    pub id: String,
+    pub recording: RecordingResult,
+    pub verdict: Verdict,
+    pub disturbances: Vec<DisturbanceResult>,
+    pub trip: TripResult,
+    pub checks: Vec<CheckResult>,
+    /// Rule set used by this test when it differs from the plan's.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rules: Option<FileRef>,
+    #[serde(default)]
+    pub notes: Vec<String>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct FileRef {
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub id: Option<String>,
+    pub path: String,
+    pub sha256: String,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub title: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub source: Option<String>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct Tool {
+    pub name: String,
+    pub version: String,
+}
+
+/// `results.json`, schema version 1.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct Results {
+    pub schema_version: u32,
+    pub tool: Tool,
+    /// Null for a one-off check without a plan file.
+    pub plan: Option<FileRef>,
+    pub rules: FileRef,
+    pub verdict: Verdict,
+    pub tests: Vec<TestResult>,
+    /// Unit name from the plan.
+    #[serde(default)]
+    pub unit: Option<String>,
+    /// UTC time of the run, RFC 3339.
+    #[serde(default)]
+    pub generated_utc: Option<String>,
+    #[serde(default)]
+    pub command_line: Option<String>,
+    #[serde(default)]
+    pub caution: Option<String>,
+}
+
+impl Results {
+    pub fn counts(&self) -> [(Verdict, usize); 3] {
+        let n = |v| self.tests.iter().filter(|t| t.verdict == v).count();
+        [
+            (Verdict::Pass, n(Verdict::Pass)),
+            (Verdict::Fail, n(Verdict::Fail)),
+            (Verdict::Inconclusive, n(Verdict::Inconclusive)),
+        ]
+    }
+}
+
+impl From<&crate::analysis::events::Disturbance> for DisturbanceResult {
+    fn from(d: &crate::analysis::events::Disturbance) -> Self {
+        use crate::analysis::events::{Balance, DisturbanceKind};
+        DisturbanceResult {
+            kind: match d.kind {
+                DisturbanceKind::Undervoltage => "undervoltage",
+                DisturbanceKind::Overvoltage => "overvoltage",
+            }
+            .into(),
+            start_s: d.start_s,
+            end_s: d.end_s,
+            extreme_pu: d.extreme_pu,
+            balance: match d.balance {
+                Balance::Symmetrical => "symmetrical",
+                Balance::Unbalanced => "unbalanced",
+                Balance::Undetermined => "undetermined",
+            }
+            .into(),
+            extreme_at_s: Some(d.extreme_at_s),
+            duration_s: d.duration_s(),
+            unbalance_ratio: d.unbalance_ratio,
+            residual_v1_pu: d.residual.map(|r| r.v1_pu),
+            residual_phase_pu: d.residual.and_then(|r| r.phase_pu),
+            prefault_v_pu: d.prefault.map(|p| p.v_pu),
+            prefault_p_pu: d.prefault.and_then(|p| p.p_pu),
+            prefault_q_pu: d.prefault.and_then(|p| p.q_pu),
+        }
+    }
+}
+
+impl From<&crate::analysis::events::TripInfo> for TripResult {
+    fn from(t: &crate::analysis::events::TripInfo) -> Self {
+        use crate::analysis::events::TripMethod;
+        TripResult {
+            tripped: t.tripped,
+            time_s: if t.tripped { t.time_s } else { None },
+            method: Some(
+                match t.method {
+                    TripMethod::Status => "status",
+                    TripMethod::Current => "current",
+                    TripMethod::None => "none",
+                }
+                .into(),
+            ),
+            cessations: t.cessations.iter().map(|(a, b)| [*a, *b]).collect(),
+            note: t.note.clone(),
+        }
+    }
+}
