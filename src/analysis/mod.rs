@@ -132,6 +132,27 @@ impl Series {
             cols,
         }
     }
+    /// A series from columns computed elsewhere (RMS-level data, tests).
+    /// Time must increase strictly; every column must match its length.
+    pub fn from_columns(t: Vec<f64>, columns: Vec<(Quantity, Vec<f64>)>) -> Result<Self, String> {
+        if t.windows(2).any(|w| !(w[1] > w[0])) || t.iter().any(|x| !x.is_finite()) {
+            return Err("time must be finite and strictly increasing".into());
+        }
+        let mut cols = vec![None; N_Q];
+        for (q, c) in columns {
+            if c.len() != t.len() {
+                return Err(format!(
+                    "column {} has {} values for {} times",
+                    q.name(),
+                    c.len(),
+                    t.len()
+                ));
+            }
+            cols[q as usize] = Some(c);
+        }
+        Ok(Series { t, cols })
+    }
+
     pub fn get(&self, q: Quantity) -> Option<&[f64]> {
         self.cols.get(q as usize)?.as_deref()
     }

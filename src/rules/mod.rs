@@ -33,7 +33,20 @@ pub struct LoadedRules {
 /// Loads and validates a rule set; all value problems are reported at once.
 pub fn load(path: &Path) -> Result<LoadedRules, InputErrors> {
     let text = yaml::read_text(path, "rule set")?;
-    let rules: RuleSet = yaml::parse(path, &text)?;
+    let rules: RuleSet = match yaml::parse(path, &text) {
+        Ok(r) => r,
+        Err(first) => {
+            // The parser reports a problem inside a check at the check's
+            // first line; look at each check on its own to name the key and
+            // to report every broken check at once.
+            let per_check = check_errors(path, &text);
+            return Err(InputErrors(if per_check.is_empty() {
+                vec![first]
+            } else {
+                per_check
+            }));
+        }
+    };
     let problems = rules.problems();
     if !problems.is_empty() {
         return Err(InputErrors(
@@ -58,4 +71,67 @@ pub fn load(path: &Path) -> Result<LoadedRules, InputErrors> {
         sha256: crate::digest::sha256_file(path)
             .map_err(|e| InputError::new(path, format!("cannot read rule set: {e}")))?,
     })
+}
+
+/// Problems of individual checks, each placed at its key where the message names one.
+fn check_errors(path: &Path, text: &str) -> Vec<InputError> {
+    #[derive(serde::Deserialize)]
+    struct Loose {
+        #[serde(default)]
+        checks: Vec<serde_yaml::Value>,
+    }
+    let Ok(loose) = serde_yaml::from_str::<Loose>(text) else {
+        return Vec::new();
+    };
+    let quoted = |msg: &str, after: &str| -> Option<String> {
+        let i = msg.find(after)? + after.len();
+        let rest = &msg[i..];
+        let end = rest.find('`')?;
+        Some(rest[..end].to_string())
+    };
+    let mut out = Vec::new();
+    for (i, v) in loose.checks.into_iter().enumerate() {
+        let id = v
+            .get("id")
+            .and_then(|x| x.as_str())
+            .unwrap_or("?")
+            .to_string();
+        if let Err(e) = serde_yaml::from_value::<spec::CheckSpec>(v.clone()) {
+            let msg = e.to_string();
+            let key = quoted(&msg, "unknown field `")
+                .or_else(|| msg.contains("unknown variant").then(|| "type".to_string()))
+                .or_else(|| culprit(&v, &msg));
+            let mut err = InputError::new(path, msg.clone())
+                .field(format!("checks[{i}] ({id})"))
+                .hint("see docs/rules.md for the fields of each check type");
+            let place = key
+                .as_deref()
+                .and_then(|k| locate::locate(text, "checks", Some(i), k))
+                .or_else(|| locate::locate(text, "checks", Some(i), "\u{0}"));
+            if let Some((l, c)) = place {
+                err = err.line(l).column(c);
+            }
+            out.push(err);
+        }
+    }
+    out
+}
+
+/// The key whose value causes `msg`: without it the error changes.
+fn culprit(v: &serde_yaml::Value, msg: &str) -> Option<String> {
+    let map = v.as_mapping()?;
+    for (k, _) in map {
+        let key = k.as_str()?;
+        if key == "type" || key == "id" {
+            continue;
+        }
+        let mut m = map.clone();
+        m.remove(k);
+        match serde_yaml::from_value::<spec::CheckSpec>(serde_yaml::Value::Mapping(m)) {
+            Ok(_) => return Some(key.to_string()),
+            Err(e) if e.to_string() != msg => return Some(key.to_string()),
+            Err(_) => {}
+        }
+    }
+    None
 }

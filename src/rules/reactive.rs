@@ -13,6 +13,11 @@
 //!   (mirrored for a negative requirement: `lo` is always "less current than
 //!   required") for good, up to the end of the quasi-steady part;
 //! * margin: the smaller of the rise-time and settling-time margins, in s.
+//!
+//! With `follow: instantaneous` the requirement follows the voltage sample by
+//! sample; a step of the requirement later in the fault (larger than half the
+//! tolerance band) restarts a settling period, during which the band is not
+//! enforced.
 
 use super::result::{CheckResult, Verdict};
 use super::spec::{DeadBandMode, Follow, ReactiveCurrentSpec, Sequence};
@@ -174,8 +179,24 @@ pub fn evaluate(
         let need = req_at(k).abs();
         d.is_finite() && d >= need + lo && d <= need + hi
     };
+    // Following the voltage, each step of the requirement (larger than half
+    // the band width between two points) restarts a settling period: samples
+    // within the settling time after such a step are not held to the band.
+    let half_band = (hi - lo) / 2.0;
+    let mut exempt_until = f64::NEG_INFINITY;
+    let mut exempt = vec![false; j_end.saturating_sub(i0)];
+    if spec.follow == Follow::Instantaneous {
+        for k in i0.max(1)..j_end {
+            if (req_at(k) - req_at(k - 1)).abs() > half_band
+                && inp.t[k] > start + spec.settling_time_s
+            {
+                exempt_until = inp.t[k] + spec.settling_time_s;
+            }
+            exempt[k - i0] = inp.t[k] < exempt_until;
+        }
+    }
     let settle_at: Option<f64> = if full {
-        match (i0..j_end).rev().find(|&k| !in_band(k)) {
+        match (i0..j_end).rev().find(|&k| !in_band(k) && !exempt[k - i0]) {
             None => Some(start),
             Some(k) if k + 1 < j_end => Some(inp.t[k + 1]),
             Some(_) => None,

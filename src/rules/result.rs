@@ -4,6 +4,24 @@
 
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
+use std::borrow::Cow;
+use std::marker::PhantomData;
+
+/// Schema helper: a field that is always present and may be null.
+pub struct Nullable<T>(PhantomData<T>);
+
+impl<T: JsonSchema> JsonSchema for Nullable<T> {
+    fn schema_name() -> Cow<'static, str> {
+        format!("Nullable_{}", T::schema_name()).into()
+    }
+    fn inline_schema() -> bool {
+        true
+    }
+    fn json_schema(generator: &mut schemars::SchemaGenerator) -> schemars::Schema {
+        let inner = generator.subschema_for::<T>();
+        schemars::json_schema!({ "anyOf": [inner, { "type": "null" }] })
+    }
+}
 
 #[derive(
     Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize, JsonSchema,
@@ -48,15 +66,20 @@ pub struct CheckResult {
     #[serde(rename = "type")]
     pub check_type: String,
     /// Index into the test's `disturbances`, or null when none applied.
+    #[schemars(with = "Nullable<usize>")]
     pub disturbance: Option<usize>,
     pub verdict: Verdict,
+    #[schemars(with = "Nullable<f64>")]
     pub measured: Option<f64>,
+    #[schemars(with = "Nullable<f64>")]
     pub limit: Option<f64>,
     /// Positive inside the requirement, negative outside.
+    #[schemars(with = "Nullable<f64>")]
     pub margin: Option<f64>,
     /// Unit of measured, limit and margin: `pu` or `s`.
     pub unit: String,
     /// Time of the smallest margin, s from the first sample.
+    #[schemars(with = "Nullable<f64>")]
     pub at_s: Option<f64>,
     /// A plain sentence a reviewer can read without the manual.
     pub detail: String,
@@ -120,6 +143,7 @@ pub struct DisturbanceResult {
     pub kind: String,
     pub start_s: f64,
     /// Null when the recording ends before the voltage returned.
+    #[schemars(with = "Nullable<f64>")]
     pub end_s: Option<f64>,
     pub extreme_pu: f64,
     /// `symmetrical`, `unbalanced` or `undetermined`.
@@ -149,6 +173,7 @@ pub struct DisturbanceResult {
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
 pub struct TripResult {
     pub tripped: bool,
+    #[schemars(with = "Nullable<f64>")]
     pub time_s: Option<f64>,
     /// `status`, `current` or `none` (cannot be seen).
     #[serde(default)]
@@ -217,6 +242,7 @@ pub struct Results {
     pub schema_version: u32,
     pub tool: Tool,
     /// Null for a one-off check without a plan file.
+    #[schemars(with = "Nullable<FileRef>")]
     pub plan: Option<FileRef>,
     pub rules: FileRef,
     pub verdict: Verdict,

@@ -1,0 +1,267 @@
+//! The user-facing contracts: results.json against its shipped JSON Schema
+//! and against the field names of the interface document; the sample plan's
+//! verdicts end to end through the binary.
+
+use assert_cmd::Command;
+use holdfast::rules::result::Results;
+use serde_json::Value;
+use std::collections::BTreeSet;
+use std::path::Path;
+
+fn root() -> &'static Path {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+}
+
+/// Runs the README's main command into a temporary directory.
+fn run_sample_plan() -> (tempfile::TempDir, Value, i32) {
+    let dir = tempfile::tempdir().unwrap();
+    let out = Command::cargo_bin("holdfast")
+        .unwrap()
+        .current_dir(root())
+        .args(["check", "sample-data/plan.yaml", "--out"])
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    let code = out.status.code().unwrap_or(-1);
+    assert!(
+        code == 0 || code == 1,
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = std::fs::read_to_string(dir.path().join("results.json")).unwrap();
+    (dir, serde_json::from_str(&text).unwrap(), code)
+}
+
+#[test]
+fn committed_schema_matches_the_result_types() {
+    // The schema file is generated from the Rust types; regenerate with
+    // UPDATE_SCHEMAS=1 cargo test --test contract.
+    let generated = serde_json::to_string_pretty(&schemars::schema_for!(Results)).unwrap() + "\n";
+    let path = root().join("schemas/results-v1.schema.json");
+    if std::env::var_os("UPDATE_SCHEMAS").is_some() {
+        std::fs::write(&path, &generated).unwrap();
+    }
+    let committed = std::fs::read_to_string(&path).unwrap_or_default();
+    assert_eq!(
+        committed, generated,
+        "schemas/results-v1.schema.json is stale: run UPDATE_SCHEMAS=1 cargo test --test contract"
+    );
+}
+
+#[test]
+fn sample_results_validate_against_the_shipped_schema() {
+    let (_dir, results, _) = run_sample_plan();
+    let schema: Value = serde_json::from_str(
+        &std::fs::read_to_string(root().join("schemas/results-v1.schema.json")).unwrap(),
+    )
+    .unwrap();
+    // Independent check: the general-purpose `jsonschema` crate.
+    let validator = jsonschema::validator_for(&schema).expect("valid schema");
+    let errors: Vec<String> = validator
+        .iter_errors(&results)
+        .map(|e| format!("{e} at {}", e.instance_path))
+        .collect();
+    assert!(errors.is_empty(), "{errors:#?}");
+    // A document with a renamed field must not validate.
+    let mut broken = results.clone();
+    broken["tests"][0]["checks"][0]
+        .as_object_mut()
+        .unwrap()
+        .remove("margin");
+    assert!(!validator.is_valid(&broken));
+    // And the typed round trip keeps everything.
+    let typed: Results = serde_json::from_value(results.clone()).unwrap();
+    assert_eq!(serde_json::to_value(&typed).unwrap(), results);
+}
+
+/// The example of `results.json` schema version 1 in the interface document
+/// (../shared/design/interfaces.md), copied verbatim apart from the
+/// alternatives in verdict strings.
+const INTERFACE_EXAMPLE: &str = r#"{
+  "schema_version": 1,
+  "tool": { "name": "holdfast", "version": "0.1.0" },
+  "plan": { "path": "...", "sha256": "..." },
+  "rules": { "id": "...", "path": "...", "sha256": "..." },
+  "verdict": "fail",
+  "tests": [
+    {
+      "id": "T01",
+      "recording": { "path": "...", "sha256": "...", "sample_rate_hz": 10000.0, "duration_s": 5.0 },
+      "verdict": "pass",
+      "disturbances": [
+        { "kind": "undervoltage", "start_s": 1.0, "end_s": 1.5,
+          "extreme_pu": 0.2, "balance": "symmetrical" }
+      ],
+      "trip": { "tripped": false, "time_s": null },
+      "checks": [
+        { "id": "lvrt", "type": "envelope", "disturbance": 0,
+          "verdict": "pass",
+          "measured": 0.05, "limit": 0.0, "margin": 0.05, "unit": "pu",
+          "at_s": 1.12, "detail": "human-readable sentence" }
+      ]
+    }
+  ]
+}"#;
+
+fn key_paths(v: &Value, prefix: &str, out: &mut BTreeSet<String>) {
+    match v {
+        Value::Object(m) => {
+            for (k, x) in m {
+                let p = format!("{prefix}.{k}");
+                out.insert(p.clone());
+                key_paths(x, &p, out);
+            }
+        }
+        Value::Array(a) => {
+            for x in a {
+                key_paths(x, &format!("{prefix}[]"), out);
+            }
+        }
+        _ => {}
+    }
+}
+
+#[test]
+fn field_names_follow_the_interface_document() {
+    let example: Value = serde_json::from_str(INTERFACE_EXAMPLE).unwrap();
+    let mut want = BTreeSet::new();
+    key_paths(&example, "", &mut want);
+    let (_dir, results, _) = run_sample_plan();
+    let mut have = BTreeSet::new();
+    key_paths(&results, "", &mut have);
+    let missing: Vec<_> = want.difference(&have).collect();
+    assert!(
+        missing.is_empty(),
+        "fields of interfaces.md missing from results.json: {missing:?}"
+    );
+    // The interface example itself deserialises into the typed results.
+    let typed: Results = serde_json::from_value(example).unwrap();
+    assert_eq!(typed.schema_version, 1);
+    // Reactive current checks carry the documented extra fields.
+    let iq = results["tests"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .flat_map(|t| t["checks"].as_array().unwrap().iter())
+        .find(|c| c["type"] == "reactive_current" && c["verdict"] == "pass")
+        .unwrap();
+    for k in ["settling_time_s", "required_gain", "measured_gain"] {
+        assert!(iq.get(k).is_some(), "reactive_current check lacks {k}");
+    }
+}
+
+#[test]
+fn sample_plan_gives_the_designed_verdicts() {
+    // Each sample recording was built to show one verdict path
+    // (sample-data/plan.yaml explains how each answer follows).
+    let (dir, results, code) = run_sample_plan();
+    assert_eq!(code, 1, "the sample plan contains failing tests by design");
+    let expected = [
+        (
+            "T01",
+            "pass",
+            vec![
+                ("lvrt", "pass"),
+                ("iq-positive", "pass"),
+                ("iq-negative", "not_applicable"),
+                ("p-recovery", "pass"),
+                ("realisation", "pass"),
+            ],
+        ),
+        (
+            "T02",
+            "pass",
+            vec![
+                ("iq-positive", "pass"),
+                ("iq-negative", "pass"),
+                ("realisation", "pass"),
+            ],
+        ),
+        (
+            "T03",
+            "pass",
+            vec![("iq-positive", "not_applicable"), ("lvrt", "pass")],
+        ),
+        (
+            "T04",
+            "fail",
+            vec![("lvrt", "fail"), ("p-recovery", "fail")],
+        ),
+        (
+            "T05",
+            "pass",
+            vec![("lvrt", "pass"), ("p-recovery", "not_applicable")],
+        ),
+        (
+            "T06",
+            "fail",
+            vec![("iq-positive", "fail"), ("lvrt", "pass")],
+        ),
+        ("T07", "fail", vec![("iq-positive", "fail")]),
+        (
+            "T08",
+            "fail",
+            vec![("p-recovery", "fail"), ("iq-positive", "pass")],
+        ),
+        (
+            "T09",
+            "pass",
+            vec![("hv-table", "pass"), ("lv-table", "not_applicable")],
+        ),
+        (
+            "T10",
+            "inconclusive",
+            vec![("lvrt", "inconclusive"), ("iq-positive", "inconclusive")],
+        ),
+        ("T11", "pass", vec![("lv-table", "pass")]),
+        (
+            "T12",
+            "fail",
+            vec![("iq-positive", "fail"), ("lvrt", "pass")],
+        ),
+        ("T13", "fail", vec![("lv-table", "fail")]),
+    ];
+    let tests = results["tests"].as_array().unwrap();
+    assert_eq!(tests.len(), expected.len());
+    for (id, verdict, checks) in expected {
+        let t = tests
+            .iter()
+            .find(|t| t["id"] == id)
+            .unwrap_or_else(|| panic!("{id} missing"));
+        assert_eq!(t["verdict"], verdict, "{id}: {:#}", t["checks"]);
+        for (cid, cv) in checks {
+            let c = t["checks"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .find(|c| c["id"] == cid)
+                .unwrap();
+            assert_eq!(c["verdict"], cv, "{id}/{cid}: {}", c["detail"]);
+        }
+    }
+    assert_eq!(
+        tests.iter().find(|t| t["id"] == "T05").unwrap()["checks"][1]["permitted_trip"],
+        true
+    );
+    assert_eq!(
+        tests.iter().find(|t| t["id"] == "T11").unwrap()["recording"]["kind"],
+        "rms_level"
+    );
+    // The summary has one row per (test, check) plus the header.
+    let summary = std::fs::read_to_string(dir.path().join("summary.csv")).unwrap();
+    let rows: usize = tests
+        .iter()
+        .map(|t| t["checks"].as_array().unwrap().len())
+        .sum();
+    assert_eq!(summary.lines().count(), rows + 1);
+    // Traceability: hashes of plan, rule set and recordings.
+    assert_eq!(results["plan"]["sha256"].as_str().unwrap().len(), 64);
+    assert_eq!(results["rules"]["sha256"].as_str().unwrap().len(), 64);
+    assert!(tests
+        .iter()
+        .all(|t| t["recording"]["sha256"].as_str().unwrap().len() == 64));
+    assert!(results["caution"]
+        .as_str()
+        .unwrap()
+        .contains("not a certification"));
+}
