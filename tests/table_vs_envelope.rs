@@ -11,7 +11,7 @@
 
 use holdfast::rules::result::{CheckResult, Verdict};
 use holdfast::rules::spec::{Bound, Cessation, Side, TableMode, TableRow};
-use holdfast::rules::zone::{scan_envelope, scan_table, zone_verdict, ConnectionFacts};
+use holdfast::rules::zone::{scan_envelope, scan_table, zone_verdict, ConnectionFacts, Timing};
 use proptest::prelude::*;
 
 fn staircase(rows: &[TableRow], side: Side) -> Vec<[f64; 2]> {
@@ -42,18 +42,14 @@ fn verdict(scan: &holdfast::rules::zone::ZoneScan, trip: Option<f64>) -> Verdict
         cessations: vec![],
     };
     let r = CheckResult::new("x", "x", Some(0), "pu");
-    zone_verdict(
-        r,
-        scan,
-        &conn,
-        1.0,
-        Some(1.0),
-        0.02,
-        10.0,
-        f64::NEG_INFINITY,
-        Cessation::Allowed,
-    )
-    .verdict
+    let timing = Timing {
+        t0: 1.0,
+        disturbance_s: Some(1.0),
+        cycle_s: 0.02,
+        recording_end_s: 10.0,
+        needs_until_s: f64::NEG_INFINITY,
+    };
+    zone_verdict(r, scan, &conn, &timing, Cessation::Allowed).verdict
 }
 
 prop_compose! {

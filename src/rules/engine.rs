@@ -148,46 +148,38 @@ pub fn evaluate(
             };
             let scan_end = trip_in.unwrap_or(win_end);
             let result = match spec {
-                CheckSpec::Envelope(e) => {
-                    let scan = zone::scan_envelope(t, &v, d.start_s, scan_end, e.bound, &e.points);
-                    let last = e.points.last().map_or(0.0, |p| p[0]);
+                CheckSpec::Envelope(_) | CheckSpec::DurationTable(_) => {
+                    // The scan, the requirement's last time, and the cessation rule.
+                    let (scan, last, cessation) = match spec {
+                        CheckSpec::Envelope(e) => (
+                            zone::scan_envelope(t, &v, d.start_s, scan_end, e.bound, &e.points),
+                            e.points.last().map_or(0.0, |p| p[0]),
+                            e.momentary_cessation,
+                        ),
+                        CheckSpec::DurationTable(tb) => (
+                            zone::scan_table(
+                                t, &v, d.start_s, scan_end, tb.side, &tb.rows, tb.mode,
+                            ),
+                            tb.rows.iter().map(|r| r.max_s).fold(0.0, f64::max),
+                            tb.momentary_cessation,
+                        ),
+                        _ => unreachable!("matched above"),
+                    };
+                    // Only a disturbance that never ended needs the recording
+                    // to reach the requirement's last time.
                     let needs = if d.end_s.is_some() {
                         f64::NEG_INFINITY
                     } else {
                         d.start_s + last
                     };
-                    zone::zone_verdict(
-                        r,
-                        &scan,
-                        &conn,
-                        d.start_s,
-                        d.duration_s(),
-                        cycle,
-                        rec_end,
-                        needs,
-                        e.momentary_cessation,
-                    )
-                }
-                CheckSpec::DurationTable(tb) => {
-                    let scan =
-                        zone::scan_table(t, &v, d.start_s, scan_end, tb.side, &tb.rows, tb.mode);
-                    let last = tb.rows.iter().map(|r| r.max_s).fold(0.0, f64::max);
-                    let needs = if d.end_s.is_some() {
-                        f64::NEG_INFINITY
-                    } else {
-                        d.start_s + last
+                    let timing = zone::Timing {
+                        t0: d.start_s,
+                        disturbance_s: d.duration_s(),
+                        cycle_s: cycle,
+                        recording_end_s: rec_end,
+                        needs_until_s: needs,
                     };
-                    zone::zone_verdict(
-                        r,
-                        &scan,
-                        &conn,
-                        d.start_s,
-                        d.duration_s(),
-                        cycle,
-                        rec_end,
-                        needs,
-                        tb.momentary_cessation,
-                    )
+                    zone::zone_verdict(r, &scan, &conn, &timing, cessation)
                 }
                 CheckSpec::ReactiveCurrent(rc) => {
                     let (vq, iq) = match rc.sequence {

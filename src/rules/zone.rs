@@ -41,6 +41,28 @@ pub struct ZoneScan {
     pub samples: usize,
 }
 
+impl ZoneScan {
+    fn empty() -> Self {
+        ZoneScan {
+            first_outside: None,
+            margin: f64::INFINITY,
+            at_s: f64::NAN,
+            measured: f64::NAN,
+            limit: f64::NAN,
+            closest: String::new(),
+            samples: 0,
+        }
+    }
+}
+
+/// Indices of the finite samples with `t0 ≤ t ≤ t_end`.
+fn window<'a>(t: &'a [f64], v: &'a [f64], t0: f64, t_end: f64) -> impl Iterator<Item = usize> + 'a {
+    let from = t.partition_point(|x| *x < t0);
+    (from..t.len())
+        .take_while(move |k| t[*k] <= t_end)
+        .filter(move |k| v[*k].is_finite())
+}
+
 /// Scans an envelope over samples with `t0 ≤ t ≤ t_end`.
 pub fn scan_envelope(
     t: &[f64],
@@ -50,23 +72,8 @@ pub fn scan_envelope(
     bound: Bound,
     points: &[[f64; 2]],
 ) -> ZoneScan {
-    let mut s = ZoneScan {
-        first_outside: None,
-        margin: f64::INFINITY,
-        at_s: f64::NAN,
-        measured: f64::NAN,
-        limit: f64::NAN,
-        closest: String::new(),
-        samples: 0,
-    };
-    let from = t.partition_point(|x| *x < t0);
-    for k in from..t.len() {
-        if t[k] > t_end {
-            break;
-        }
-        if !v[k].is_finite() {
-            continue;
-        }
+    let mut s = ZoneScan::empty();
+    for k in window(t, v, t0, t_end) {
         s.samples += 1;
         let c = curve_at(points, t[k] - t0);
         let m = match bound {
@@ -117,23 +124,8 @@ pub fn scan_table(
     let mut last_beyond: Vec<f64> = vec![f64::NAN; n];
     let mut worst_r: Vec<f64> = vec![f64::NAN; n];
     let mut worst_at: Vec<f64> = vec![f64::NAN; n];
-    let mut s = ZoneScan {
-        first_outside: None,
-        margin: f64::INFINITY,
-        at_s: f64::NAN,
-        measured: f64::NAN,
-        limit: f64::NAN,
-        closest: String::new(),
-        samples: 0,
-    };
-    let from = t.partition_point(|x| *x < t0);
-    for k in from..t.len() {
-        if t[k] > t_end {
-            break;
-        }
-        if !v[k].is_finite() {
-            continue;
-        }
+    let mut s = ZoneScan::empty();
+    for k in window(t, v, t0, t_end) {
         s.samples += 1;
         for (i, row) in rows.iter().enumerate() {
             let beyond = match side {
@@ -216,19 +208,32 @@ pub struct ConnectionFacts {
     pub cessations: Vec<(f64, f64)>,
 }
 
+/// When the disturbance happened and what the recording covers.
+pub struct Timing {
+    pub t0: f64,
+    /// Phasor-level duration of the disturbance (None: it never ended).
+    pub disturbance_s: Option<f64>,
+    pub cycle_s: f64,
+    pub recording_end_s: f64,
+    /// The recording must reach this time when the voltage never recovered.
+    pub needs_until_s: f64,
+}
+
 /// Turns a zone scan into a verdict (domain reference §5, envelope).
-#[allow(clippy::too_many_arguments)]
 pub fn zone_verdict(
     mut r: CheckResult,
     scan: &ZoneScan,
     conn: &ConnectionFacts,
-    t0: f64,
-    disturbance_s: Option<f64>,
-    cycle_s: f64,
-    recording_end_s: f64,
-    needs_until_s: f64,
+    timing: &Timing,
     cessation: Cessation,
 ) -> CheckResult {
+    let Timing {
+        t0,
+        disturbance_s,
+        cycle_s,
+        recording_end_s,
+        needs_until_s,
+    } = *timing;
     r.measured = scan.measured.is_finite().then_some(scan.measured);
     r.limit = scan.limit.is_finite().then_some(scan.limit);
     r.margin = scan.margin.is_finite().then_some(scan.margin);
