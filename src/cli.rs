@@ -220,9 +220,15 @@ pub struct InspectArgs {
 #[derive(Args, Debug)]
 #[command(args_override_self = true)]
 pub struct SynthArgs {
-    /// Output file (CSV).
+    /// Output file: .csv, or COMTRADE .cfg (with .dat beside it) or .cff.
     #[arg(long, short, value_name = "FILE")]
     pub out: PathBuf,
+    /// COMTRADE data type: ascii, binary, binary32 or float32.
+    #[arg(long, default_value = "binary", value_name = "TYPE")]
+    pub comtrade_type: String,
+    /// COMTRADE revision: 1991, 1999 or 2013.
+    #[arg(long, default_value = "2013", value_name = "YEAR")]
+    pub revision: String,
     /// Rated line-to-line voltage, kV.
     #[arg(long, default_value_t = 0.69)]
     pub rated_kv: f64,

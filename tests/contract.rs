@@ -220,6 +220,11 @@ fn sample_plan_gives_the_designed_verdicts() {
             vec![("iq-positive", "fail"), ("lvrt", "pass")],
         ),
         ("T13", "fail", vec![("lv-table", "fail")]),
+        (
+            "T14",
+            "pass",
+            vec![("iq-negative", "pass"), ("realisation", "pass")],
+        ),
     ];
     let tests = results["tests"].as_array().unwrap();
     assert_eq!(tests.len(), expected.len());

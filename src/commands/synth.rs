@@ -2,7 +2,9 @@
 
 use crate::cli::SynthArgs;
 use crate::error::UsageError;
+use crate::import::comtrade::cfg::{DataType, Revision};
 use crate::model::{Connection, CurrentUnit, Ratings, VoltageUnit};
+use crate::synth::comtrade::write_comtrade;
 use crate::synth::{write_csv, DeadBandMode, SynthLayout, SynthSpec, TimeFormat};
 use anyhow::Context;
 use std::io::{BufWriter, Write};
@@ -147,16 +149,49 @@ pub fn spec_from_args(a: &SynthArgs) -> Result<SynthSpec, UsageError> {
 
 pub fn run(args: &SynthArgs) -> anyhow::Result<u8> {
     let spec = spec_from_args(args)?;
-    if let Some(dir) = args.out.parent().filter(|d| !d.as_os_str().is_empty()) {
-        std::fs::create_dir_all(dir)
-            .with_context(|| format!("creating directory {}", dir.display()))?;
-    }
-    let file = std::fs::File::create(&args.out)
-        .with_context(|| format!("creating {}", args.out.display()))?;
-    let mut w = BufWriter::with_capacity(1 << 20, file);
-    let n = write_csv(&spec, &mut w).with_context(|| format!("writing {}", args.out.display()))?;
-    w.flush()
-        .with_context(|| format!("writing {}", args.out.display()))?;
+    let ext = args
+        .out
+        .extension()
+        .and_then(|e| e.to_str())
+        .unwrap_or("")
+        .to_ascii_lowercase();
+    let n = if ext == "cfg" || ext == "cff" {
+        let dt = DataType::parse(&args.comtrade_type).ok_or_else(|| {
+            UsageError(format!(
+                "--comtrade-type '{}': use ascii, binary, binary32 or float32",
+                args.comtrade_type
+            ))
+        })?;
+        let rev = Revision::parse(&args.revision).ok_or_else(|| {
+            UsageError(format!(
+                "--revision '{}': use 1991, 1999 or 2013",
+                args.revision
+            ))
+        })?;
+        if spec.layout == SynthLayout::Waveform && spec.time_format != TimeFormat::Seconds {
+            return Err(UsageError("--time-format applies to CSV only".into()).into());
+        }
+        write_comtrade(&spec, &args.out, dt, rev).map_err(|e| {
+            if e.kind() == std::io::ErrorKind::InvalidInput {
+                anyhow::Error::new(UsageError(e.to_string()))
+            } else {
+                anyhow::Error::new(e).context(format!("writing {}", args.out.display()))
+            }
+        })?
+    } else {
+        if let Some(dir) = args.out.parent().filter(|d| !d.as_os_str().is_empty()) {
+            std::fs::create_dir_all(dir)
+                .with_context(|| format!("creating directory {}", dir.display()))?;
+        }
+        let file = std::fs::File::create(&args.out)
+            .with_context(|| format!("creating {}", args.out.display()))?;
+        let mut w = BufWriter::with_capacity(1 << 20, file);
+        let n =
+            write_csv(&spec, &mut w).with_context(|| format!("writing {}", args.out.display()))?;
+        w.flush()
+            .with_context(|| format!("writing {}", args.out.display()))?;
+        n
+    };
     eprintln!("wrote {} ({n} samples)", args.out.display());
     Ok(0)
 }

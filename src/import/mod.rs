@@ -5,6 +5,7 @@
 //! sample) into a [`FrameSink`]. Adding a format means adding a module here that
 //! implements [`Source`] and a branch in [`open`].
 
+pub mod comtrade;
 pub mod csv;
 
 use crate::error::InputError;
@@ -75,6 +76,7 @@ pub fn open(
         .to_ascii_lowercase();
     match ext.as_str() {
         "csv" | "txt" | "tsv" | "" => Ok(Box::new(csv::CsvSource::open(path, map, opts)?)),
+        "cfg" | "cff" => Ok(Box::new(comtrade::ComtradeSource::open(path, map, opts)?)),
         other => Err(
             InputError::new(path, format!("unsupported recording format '.{other}'"))
                 .hint("give a .csv file (COMTRADE .cfg/.cff support is listed in the README)"),

@@ -20,6 +20,8 @@
 //! shows the response through the analysis' one-cycle window: that is what a
 //! measurement of a real unit shows too.
 
+pub mod comtrade;
+
 use crate::analysis::sequence;
 use crate::model::{Connection, CurrentUnit, Ratings, VoltageUnit};
 use num_complex::Complex64;
@@ -193,8 +195,15 @@ struct Unit {
     ip_fault: f64,
 }
 
-/// Writes the recording as CSV to `out`.
-pub fn write_csv(spec: &SynthSpec, out: &mut dyn Write) -> std::io::Result<u64> {
+/// Values of one sample in the file's units: waveform layout
+/// `[va, vb, vc, ia, ib, ic, status]`, RMS layout `[v_pos, p, q, 0, 0, 0, status]`.
+pub type SampleValues = [f64; 7];
+
+/// Generates every sample of the recording, in order, into `emit(index, t, values)`.
+pub fn generate(
+    spec: &SynthSpec,
+    mut emit: impl FnMut(u64, f64, &SampleValues) -> std::io::Result<()>,
+) -> std::io::Result<u64> {
     let r = &spec.ratings;
     let w = 2.0 * PI * r.frequency_hz;
     let dt = 1.0 / spec.sample_rate_hz;
@@ -229,24 +238,8 @@ pub fn write_csv(spec: &SynthSpec, out: &mut dyn Write) -> std::io::Result<u64> 
         CurrentUnit::Pu => 1.0,
         u => ibase / u.factor(),
     };
-    let d = spec.delimiter as char;
-    let decimals_t = ((spec.sample_rate_hz.log10().ceil() as usize) + 3).min(12);
-    let origin = chrono::NaiveDate::from_ymd_opt(2026, 3, 14)
-        .and_then(|d| d.and_hms_opt(10, 0, 0))
-        .unwrap_or_default();
 
-    // Header.
-    let mut header: Vec<&str> = vec!["t"];
-    match spec.layout {
-        SynthLayout::Waveform => header.extend(["va", "vb", "vc", "ia", "ib", "ic"]),
-        SynthLayout::Rms => header.extend(["v_pos", "p", "q"]),
-    }
-    if spec.status_column {
-        header.push("status");
-    }
-    writeln!(out, "{}", header.join(&d.to_string()))?;
-
-    let mut line = String::with_capacity(128);
+    let mut vals: SampleValues = [0.0; 7];
     for m in 0..n {
         let t = m as f64 * dt;
         let in_fault = t >= spec.fault_start_s && t < fault_end;
@@ -316,33 +309,6 @@ pub fn write_csv(spec: &SynthSpec, out: &mut dyn Write) -> std::io::Result<u64> 
         let i2 = Complex64::new(0.0, -iq2n) * u2;
         let status = if tripped { 0.0 } else { 1.0 };
 
-        line.clear();
-        let put = |line: &mut String, v: f64, dec: usize| {
-            use std::fmt::Write as _;
-            line.push(d);
-            let start = line.len();
-            let _ = write!(line, "{:.*}", dec, v);
-            if spec.decimal_comma {
-                let tail: String = line[start..].replace('.', ",");
-                line.truncate(start);
-                line.push_str(&tail);
-            }
-        };
-        {
-            use std::fmt::Write as _;
-            match spec.time_format {
-                TimeFormat::Seconds => {
-                    let _ = write!(line, "{:.*}", decimals_t, t);
-                    if spec.decimal_comma {
-                        line.clone_from(&line.replace('.', ","));
-                    }
-                }
-                TimeFormat::Iso => {
-                    let ts = origin + chrono::Duration::nanoseconds((t * 1e9).round() as i64);
-                    let _ = write!(line, "{}", ts.format("%Y-%m-%dT%H:%M:%S%.6f"));
-                }
-            }
-        }
         match spec.layout {
             SynthLayout::Waveform => {
                 let phase_i = [i1 + i2, a2 * i1 + a * i2, a * i1 + a2 * i2];
@@ -360,23 +326,16 @@ pub fn write_csv(spec: &SynthSpec, out: &mut dyn Write) -> std::io::Result<u64> 
                     }
                     h
                 };
-                let mut vals = [0.0; 3];
+                let mut pv = [0.0; 3];
                 for k in 0..3 {
-                    vals[k] = inst(phase_v[k]) + harm(k, &mut rng);
+                    pv[k] = inst(phase_v[k]) + harm(k, &mut rng);
                 }
                 let vout = match spec.connection {
-                    Connection::PhaseToNeutral => vals,
-                    Connection::PhaseToPhase => {
-                        [vals[0] - vals[1], vals[1] - vals[2], vals[2] - vals[0]]
-                    }
+                    Connection::PhaseToNeutral => pv,
+                    Connection::PhaseToPhase => [pv[0] - pv[1], pv[1] - pv[2], pv[2] - pv[0]],
                 };
-                let vdec = if spec.voltage_unit == VoltageUnit::Pu {
-                    6
-                } else {
-                    4
-                };
-                for v in vout {
-                    put(&mut line, v * vfactor, vdec);
+                for k in 0..3 {
+                    vals[k] = vout[k] * vfactor;
                 }
                 for k in 0..3 {
                     let ival = if tripped {
@@ -384,7 +343,7 @@ pub fn write_csv(spec: &SynthSpec, out: &mut dyn Write) -> std::io::Result<u64> 
                     } else {
                         inst(phase_i[k]) + harm(k, &mut rng)
                     };
-                    put(&mut line, ival * ifactor, 5);
+                    vals[3 + k] = ival * ifactor;
                 }
             }
             SynthLayout::Rms => {
@@ -397,16 +356,74 @@ pub fn write_csv(spec: &SynthSpec, out: &mut dyn Write) -> std::io::Result<u64> 
                 };
                 let vm = v1.norm();
                 let s = v1 * i1.conj();
-                put(&mut line, vm + noise(), 6);
-                put(&mut line, s.re + noise(), 6);
-                put(&mut line, s.im + noise(), 6);
+                vals[0] = vm + noise();
+                vals[1] = s.re + noise();
+                vals[2] = s.im + noise();
             }
         }
-        if spec.status_column {
-            put(&mut line, status, 0);
-        }
-        line.push('\n');
-        out.write_all(line.as_bytes())?;
+        vals[6] = status;
+        emit(m, t, &vals)?;
     }
     Ok(n)
+}
+
+/// Writes the recording as CSV to `out`.
+pub fn write_csv(spec: &SynthSpec, out: &mut dyn Write) -> std::io::Result<u64> {
+    let d = spec.delimiter as char;
+    let decimals_t = ((spec.sample_rate_hz.log10().ceil() as usize) + 3).min(12);
+    let origin = chrono::NaiveDate::from_ymd_opt(2026, 3, 14)
+        .and_then(|d| d.and_hms_opt(10, 0, 0))
+        .unwrap_or_default();
+    let mut header: Vec<&str> = vec!["t"];
+    let ncols = match spec.layout {
+        SynthLayout::Waveform => {
+            header.extend(["va", "vb", "vc", "ia", "ib", "ic"]);
+            6
+        }
+        SynthLayout::Rms => {
+            header.extend(["v_pos", "p", "q"]);
+            3
+        }
+    };
+    if spec.status_column {
+        header.push("status");
+    }
+    writeln!(out, "{}", header.join(&d.to_string()))?;
+    let vdec = if spec.voltage_unit == VoltageUnit::Pu {
+        6
+    } else {
+        4
+    };
+    let mut line = String::with_capacity(128);
+    generate(spec, |_, t, vals| {
+        use std::fmt::Write as _;
+        line.clear();
+        match spec.time_format {
+            TimeFormat::Seconds => {
+                let _ = write!(line, "{:.*}", decimals_t, t);
+            }
+            TimeFormat::Iso => {
+                let ts = origin + chrono::Duration::nanoseconds((t * 1e9).round() as i64);
+                let _ = write!(line, "{}", ts.format("%Y-%m-%dT%H:%M:%S%.6f"));
+            }
+        }
+        for (k, v) in vals[..ncols].iter().enumerate() {
+            line.push(d);
+            let dec = match (spec.layout, k) {
+                (SynthLayout::Waveform, 0..=2) => vdec,
+                (SynthLayout::Waveform, _) => 5,
+                (SynthLayout::Rms, _) => 6,
+            };
+            let _ = write!(line, "{:.*}", dec, v);
+        }
+        if spec.status_column {
+            let _ = write!(line, "{d}{}", vals[6]);
+        }
+        if spec.decimal_comma {
+            // The delimiter is ';' or tab here, so every '.' is a decimal point.
+            line = line.replace('.', ",");
+        }
+        line.push('\n');
+        out.write_all(line.as_bytes())
+    })
 }

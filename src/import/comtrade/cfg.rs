@@ -1,0 +1,524 @@
+//! COMTRADE configuration (`.cfg`) parsing: IEEE C37.111-1991/-1999/-2013
+//! (= IEC 60255-24:2013). One record per line, comma-separated; the clause
+//! numbers below refer to IEEE C37.111-2013 clause 7 (configuration file).
+//!
+//! Strict about counts and numbers (errors name the line), tolerant of
+//! trailing spaces, CRLF and missing optional trailing fields.
+
+use crate::error::InputError;
+use std::path::Path;
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Revision {
+    R1991,
+    R1999,
+    R2013,
+}
+
+impl Revision {
+    pub fn year(self) -> u16 {
+        match self {
+            Revision::R1991 => 1991,
+            Revision::R1999 => 1999,
+            Revision::R2013 => 2013,
+        }
+    }
+    pub fn parse(s: &str) -> Option<Self> {
+        match s.trim() {
+            "1991" => Some(Revision::R1991),
+            "1999" => Some(Revision::R1999),
+            "2013" => Some(Revision::R2013),
+            _ => None,
+        }
+    }
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum DataType {
+    Ascii,
+    Binary,
+    Binary32,
+    Float32,
+}
+
+impl DataType {
+    pub fn parse(s: &str) -> Option<Self> {
+        match s.trim().to_ascii_uppercase().as_str() {
+            "ASCII" => Some(DataType::Ascii),
+            "BINARY" => Some(DataType::Binary),
+            "BINARY32" => Some(DataType::Binary32),
+            "FLOAT32" => Some(DataType::Float32),
+            _ => None,
+        }
+    }
+    pub fn name(self) -> &'static str {
+        match self {
+            DataType::Ascii => "ASCII",
+            DataType::Binary => "BINARY",
+            DataType::Binary32 => "BINARY32",
+            DataType::Float32 => "FLOAT32",
+        }
+    }
+    /// Bytes per analog value in binary files.
+    pub fn analog_bytes(self) -> usize {
+        match self {
+            DataType::Binary => 2,
+            _ => 4,
+        }
+    }
+}
+
+#[derive(Clone, Debug, PartialEq)]
+pub struct Analog {
+    pub index: u32,
+    pub name: String,
+    pub phase: String,
+    pub circuit: String,
+    pub unit: String,
+    pub a: f64,
+    pub b: f64,
+    /// Skew in µs.
+    pub skew: f64,
+    pub min: f64,
+    pub max: f64,
+    pub primary: f64,
+    pub secondary: f64,
+    /// True when `a·x + b` gives primary values (`P`).
+    pub is_primary: bool,
+    /// Line of the channel in the configuration.
+    pub line: u64,
+}
+
+#[derive(Clone, Debug, PartialEq)]
+pub struct Digital {
+    pub index: u32,
+    pub name: String,
+    pub phase: String,
+    pub circuit: String,
+    /// Normal state, 0 or 1.
+    pub normal: u8,
+    pub line: u64,
+}
+
+#[derive(Clone, Debug, PartialEq)]
+pub struct Config {
+    pub station: String,
+    pub device: String,
+    pub revision: Revision,
+    /// True when the revision year was absent (taken as 1991).
+    pub revision_implied: bool,
+    pub analogs: Vec<Analog>,
+    pub digitals: Vec<Digital>,
+    pub line_frequency: f64,
+    /// `(rate Hz, last sample number)`; empty when timestamps are the time base.
+    pub rates: Vec<(f64, u64)>,
+    /// Total samples (last `endsamp`).
+    pub total_samples: u64,
+    pub first_time: String,
+    pub trigger_time: String,
+    /// Timestamps in the first-sample field carry nanoseconds (2013).
+    pub nanoseconds: bool,
+    pub data_type: DataType,
+    pub timemult: f64,
+    pub time_code: Option<(String, String)>,
+    pub time_quality: Option<(String, String)>,
+}
+
+/// Splits a record into trimmed fields.
+fn fields(line: &str) -> Vec<&str> {
+    line.split(',').map(|f| f.trim()).collect()
+}
+
+struct Lines<'a> {
+    path: &'a Path,
+    lines: Vec<&'a str>,
+    pos: usize,
+    /// Line number (1-based) of the first line in `lines`.
+    first_line: u64,
+}
+
+impl<'a> Lines<'a> {
+    fn next(&mut self, what: &str) -> Result<(u64, &'a str), InputError> {
+        // Skip fully blank lines only at the end; inside they are errors.
+        let n = self.first_line + self.pos as u64;
+        match self.lines.get(self.pos) {
+            Some(l) => {
+                self.pos += 1;
+                Ok((n, l.trim_end_matches(['\r', ' ', '\t'])))
+            }
+            None => Err(InputError::new(
+                self.path,
+                format!("the configuration ends before the {what} line"),
+            )
+            .line(n)
+            .hint("the file is truncated or a count on line 2 is wrong")),
+        }
+    }
+    fn peek(&self) -> Option<&'a str> {
+        self.lines
+            .get(self.pos)
+            .map(|l| l.trim_end_matches(['\r', ' ', '\t']))
+    }
+}
+
+fn num<T: std::str::FromStr>(
+    path: &Path,
+    line: u64,
+    field: usize,
+    what: &str,
+    s: &str,
+) -> Result<T, InputError> {
+    s.trim().parse::<T>().map_err(|_| {
+        InputError::new(path, format!("{what} '{s}' is not a valid number"))
+            .line(line)
+            .column(field as u64 + 1)
+            .field(what.to_string())
+            .hint("COMTRADE configuration fields are comma-separated; check this field")
+    })
+}
+
+/// Parses a configuration held in `text`. `first_line` is the line number of
+/// its first line in the file (1, or later inside a `.cff`).
+pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputError> {
+    let mut ls = Lines {
+        path,
+        lines: text.split('\n').collect(),
+        pos: 0,
+        first_line,
+    };
+    // 7.4.2 station name, recording device id, revision year.
+    let (l1, s1) = ls.next("station")?;
+    let f = fields(s1);
+    if f.len() < 2 {
+        return Err(
+            InputError::new(path, "line 1 needs 'station_name,rec_dev_id[,rev_year]'").line(l1),
+        );
+    }
+    let (revision, implied) = match f.get(2) {
+        None | Some(&"") => (Revision::R1991, true),
+        Some(y) => (
+            Revision::parse(y).ok_or_else(|| {
+                InputError::new(
+                    path,
+                    format!("revision year '{y}' is not 1991, 1999 or 2013"),
+                )
+                .line(l1)
+                .column(3)
+            })?,
+            false,
+        ),
+    };
+    // 7.4.3 channel counts: TT,##A,##D.
+    let (l2, s2) = ls.next("channel count")?;
+    let f = fields(s2);
+    if f.len() != 3 {
+        return Err(InputError::new(
+            path,
+            format!("line 2 has {} fields; expected 'TT,##A,##D'", f.len()),
+        )
+        .line(l2));
+    }
+    let total: u64 = num(path, l2, 0, "TT", f[0])?;
+    let count = |k: usize, suffix: char| -> Result<u64, InputError> {
+        let s = f[k];
+        let body = s
+            .strip_suffix(suffix)
+            .or_else(|| s.strip_suffix(suffix.to_ascii_lowercase()))
+            .ok_or_else(|| {
+                InputError::new(path, format!("'{s}' must end with '{suffix}'"))
+                    .line(l2)
+                    .column(k as u64 + 1)
+            })?;
+        num(path, l2, k, "channel count", body)
+    };
+    let na = count(1, 'A')?;
+    let nd = count(2, 'D')?;
+    if total != na + nd {
+        return Err(InputError::new(
+            path,
+            format!(
+                "TT = {total} but {na} analog + {nd} digital channels = {}",
+                na + nd
+            ),
+        )
+        .line(l2)
+        .hint("TT must be the sum of ##A and ##D"));
+    }
+    if na + nd > 100_000 {
+        return Err(
+            InputError::new(path, format!("{} channels is not plausible", na + nd)).line(l2),
+        );
+    }
+    // 7.4.4 analog channel lines.
+    let mut analogs = Vec::with_capacity(na as usize);
+    for k in 0..na {
+        let (ln, s) = ls.next(&format!("analog channel {}", k + 1))?;
+        let f = fields(s);
+        let want = if revision == Revision::R1991 { 10 } else { 13 };
+        if f.len() < 10 || f.len() > 13 || (revision != Revision::R1991 && f.len() != 13) {
+            return Err(InputError::new(
+                path,
+                format!(
+                    "analog channel line has {} fields; expected {want} for revision {} (An,ch_id,ph,ccbm,uu,a,b,skew,min,max{})",
+                    f.len(),
+                    revision.year(),
+                    if want == 13 { ",primary,secondary,PS" } else { "" }
+                ),
+            )
+            .line(ln)
+            .hint("is a digital channel listed among the analog ones? Check ##A on line 2"));
+        }
+        let opt = |i: usize, d: f64, what: &str| -> Result<f64, InputError> {
+            match f.get(i) {
+                None | Some(&"") => Ok(d),
+                Some(v) => num(path, ln, i, what, v),
+            }
+        };
+        let ps = f.get(12).copied().unwrap_or("P");
+        let is_primary = match ps {
+            "P" | "p" | "" => true,
+            "S" | "s" => false,
+            o => {
+                return Err(
+                    InputError::new(path, format!("PS flag '{o}' must be P or S"))
+                        .line(ln)
+                        .column(13),
+                );
+            }
+        };
+        let a = Analog {
+            index: num(path, ln, 0, "An", f[0])?,
+            name: f[1].to_string(),
+            phase: f[2].to_string(),
+            circuit: f[3].to_string(),
+            unit: f[4].to_string(),
+            a: num(path, ln, 5, "a", f[5])?,
+            b: opt(6, 0.0, "b")?,
+            skew: opt(7, 0.0, "skew")?,
+            min: opt(8, f64::NEG_INFINITY, "min")?,
+            max: opt(9, f64::INFINITY, "max")?,
+            primary: opt(10, 1.0, "primary")?,
+            secondary: opt(11, 1.0, "secondary")?,
+            is_primary,
+            line: ln,
+        };
+        if !a.a.is_finite() || !a.b.is_finite() {
+            return Err(InputError::new(path, "multiplier a and offset b must be finite").line(ln));
+        }
+        let ratio_ok = a.primary > 0.0 && a.secondary > 0.0;
+        if !is_primary && !ratio_ok {
+            return Err(InputError::new(
+                path,
+                "secondary values need positive primary and secondary ratio terms",
+            )
+            .line(ln)
+            .column(11));
+        }
+        analogs.push(a);
+    }
+    // 7.4.5 digital (status) channel lines.
+    let mut digitals = Vec::with_capacity(nd as usize);
+    for k in 0..nd {
+        let (ln, s) = ls.next(&format!("digital channel {}", k + 1))?;
+        let f = fields(s);
+        let (name, phase, circuit, normal) = match f.len() {
+            5 => (f[1], f[2], f[3], f[4]),
+            3 if revision == Revision::R1991 => (f[1], "", "", f[2]),
+            n => {
+                return Err(InputError::new(
+                    path,
+                    format!("digital channel line has {n} fields; expected 5 (Dn,ch_id,ph,ccbm,y)"),
+                )
+                .line(ln)
+                .hint("check ##A and ##D on line 2"));
+            }
+        };
+        let normal = match normal {
+            "" | "0" => 0,
+            "1" => 1,
+            o => {
+                return Err(
+                    InputError::new(path, format!("normal state '{o}' must be 0 or 1")).line(ln),
+                )
+            }
+        };
+        digitals.push(Digital {
+            index: num(path, ln, 0, "Dn", f[0])?,
+            name: name.to_string(),
+            phase: phase.to_string(),
+            circuit: circuit.to_string(),
+            normal,
+            line: ln,
+        });
+    }
+    // 7.4.6 line frequency.
+    let (lf_line, lf) = ls.next("line frequency")?;
+    let line_frequency: f64 = if lf.trim().is_empty() {
+        f64::NAN
+    } else {
+        num(path, lf_line, 0, "lf", lf)?
+    };
+    // 7.4.7 sampling rates.
+    let (nl, ns) = ls.next("nrates")?;
+    let nrates: u64 = num(path, nl, 0, "nrates", ns)?;
+    if nrates > 1000 {
+        return Err(InputError::new(path, format!("nrates {nrates} is not plausible")).line(nl));
+    }
+    let mut rates = Vec::new();
+    let mut total_samples = 0;
+    for _ in 0..nrates.max(1) {
+        // nrates = 0: one line '0,endsamp' gives the sample count (timestamps are the time base).
+        let (ln, s) = ls.next("samp,endsamp")?;
+        let f = fields(s);
+        if f.len() != 2 {
+            return Err(InputError::new(path, format!("'{s}' is not 'samp,endsamp'")).line(ln));
+        }
+        let samp: f64 = num(path, ln, 0, "samp", f[0])?;
+        let end: u64 = num(path, ln, 1, "endsamp", f[1])?;
+        if end < total_samples {
+            return Err(InputError::new(path, "endsamp decreases")
+                .line(ln)
+                .column(2));
+        }
+        total_samples = end;
+        if nrates > 0 && samp > 0.0 {
+            rates.push((samp, end));
+        } else if nrates > 0 && samp < 0.0 {
+            return Err(InputError::new(path, "a sampling rate must not be negative").line(ln));
+        }
+    }
+    // 7.4.8 first-sample and trigger times.
+    let (ft_line, first_time) = ls.next("first sample time")?;
+    let nanoseconds = check_stamp(path, ft_line, first_time)?;
+    let (tt_line, trigger_time) = ls.next("trigger time")?;
+    check_stamp(path, tt_line, trigger_time)?;
+    // 7.4.9 data file type.
+    let (dl, ds) = ls.next("file type")?;
+    let data_type = DataType::parse(ds).ok_or_else(|| {
+        InputError::new(
+            path,
+            format!("file type '{ds}' is not ASCII, BINARY, BINARY32 or FLOAT32"),
+        )
+        .line(dl)
+        .hint("BINARY32 and FLOAT32 need revision 2013")
+    })?;
+    // 7.4.10 time multiplier (1999+), 7.4.11 time codes (2013), 7.4.12 time quality (2013).
+    let mut timemult: f64 = 1.0;
+    let mut time_code = None;
+    let mut time_quality = None;
+    if revision != Revision::R1991 {
+        if let Some(s) = ls.peek().filter(|s| !s.trim().is_empty()) {
+            let (ln, _) = ls.next("timemult")?;
+            timemult = num(path, ln, 0, "timemult", s)?;
+            if !(timemult > 0.0 && timemult.is_finite()) {
+                return Err(InputError::new(path, "timemult must be positive").line(ln));
+            }
+        }
+    }
+    if revision == Revision::R2013 {
+        for slot in [&mut time_code, &mut time_quality] {
+            if let Some(s) = ls.peek().filter(|s| !s.trim().is_empty()) {
+                let (ln, _) = ls.next("time code")?;
+                let f = fields(s);
+                if f.len() != 2 {
+                    return Err(
+                        InputError::new(path, format!("'{s}' should have two fields")).line(ln),
+                    );
+                }
+                *slot = Some((f[0].to_string(), f[1].to_string()));
+            }
+        }
+    }
+    while let Some(s) = ls.peek() {
+        if !s.trim().is_empty() {
+            let (ln, _) = ls.next("end")?;
+            return Err(InputError::new(
+                path,
+                format!("unexpected line '{s}' after the configuration"),
+            )
+            .line(ln)
+            .hint("check the channel counts on line 2"));
+        }
+        ls.pos += 1;
+    }
+    Ok(Config {
+        station: f_string(s1, 0),
+        device: f_string(s1, 1),
+        revision,
+        revision_implied: implied,
+        analogs,
+        digitals,
+        line_frequency,
+        rates,
+        total_samples,
+        first_time: first_time.trim().to_string(),
+        trigger_time: trigger_time.trim().to_string(),
+        nanoseconds,
+        data_type,
+        timemult,
+        time_code,
+        time_quality,
+    })
+}
+
+fn f_string(line: &str, k: usize) -> String {
+    fields(line)
+        .get(k)
+        .map(|s| s.to_string())
+        .unwrap_or_default()
+}
+
+/// Checks `dd/mm/yyyy,hh:mm:ss.ssssss[sss]` (mm/dd/yyyy in 1991 files);
+/// returns whether it has nanoseconds.
+fn check_stamp(path: &Path, line: u64, s: &str) -> Result<bool, InputError> {
+    let bad = || {
+        InputError::new(
+            path,
+            format!("'{s}' is not a date and time 'dd/mm/yyyy,hh:mm:ss.ssssss'"),
+        )
+        .line(line)
+    };
+    let (date, time) = s.trim().split_once(',').ok_or_else(bad)?;
+    let d: Vec<&str> = date.split('/').collect();
+    if d.len() != 3
+        || d.iter()
+            .any(|x| x.is_empty() || !x.chars().all(|c| c.is_ascii_digit()))
+    {
+        return Err(bad());
+    }
+    let (hms, frac) = time.split_once('.').unwrap_or((time, ""));
+    let t: Vec<&str> = hms.split(':').collect();
+    if t.len() != 3
+        || t.iter()
+            .any(|x| x.is_empty() || !x.chars().all(|c| c.is_ascii_digit()))
+    {
+        return Err(bad());
+    }
+    if !frac.chars().all(|c| c.is_ascii_digit()) {
+        return Err(bad());
+    }
+    Ok(frac.len() > 6)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn parses_revision_2013_with_time_codes() {
+        let text = "SUB,DEV,2013\r\n2,1A,1D\r\n1,VA,A,F1,kV,0.01,0,0,-32767,32767,110,0.1,S\r\n1,CB,,F1,1\r\n50\r\n1\r\n4000,800\r\n14/03/2026,10:00:00.000000\r\n14/03/2026,10:00:00.050000\r\nBINARY\r\n1\r\n0,0\r\nB,0\r\n";
+        let c = parse(Path::new("x.cfg"), text, 1).unwrap();
+        assert_eq!(c.revision, Revision::R2013);
+        assert_eq!(c.analogs[0].primary, 110.0);
+        assert!(!c.analogs[0].is_primary);
+        assert_eq!(c.rates, vec![(4000.0, 800)]);
+        assert_eq!(c.time_quality, Some(("B".into(), "0".into())));
+    }
+
+    #[test]
+    fn counts_must_add_up() {
+        let text = "S,D,1999\n3,1A,1D\n";
+        let e = parse(Path::new("x.cfg"), text, 1).unwrap_err();
+        assert_eq!(e.line, Some(2));
+    }
+}

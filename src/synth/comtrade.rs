@@ -1,0 +1,258 @@
+//! Writes a synthetic recording as COMTRADE (IEEE C37.111-1991/-1999/-2013):
+//! `.cfg` + `.dat`, or a 2013 `.cff`, in any of the four data types.
+//!
+//! Integer types are scaled so the largest value of each channel uses most of
+//! the range (a = max|v| / full scale, b = 0). From revision 1999 on, analog
+//! channels are stored as secondary values (PS = `S`) with a voltage
+//! transformer ratio of 690:100 and a current transformer ratio of 4000:1, so
+//! that a reader must convert to primary values; 1991 files hold primary values.
+
+use super::{generate, SynthLayout, SynthSpec};
+use crate::import::comtrade::cfg::{DataType, Revision};
+use crate::model::{Connection, CurrentUnit, VoltageUnit};
+use std::io::Write;
+use std::path::Path;
+
+/// Ratios used for secondary values (primary, secondary).
+pub const VT_RATIO: (f64, f64) = (690.0, 100.0);
+pub const CT_RATIO: (f64, f64) = (4000.0, 1.0);
+
+struct Chan {
+    name: &'static str,
+    phase: &'static str,
+    unit: String,
+    /// primary, secondary, PS
+    ratio: (f64, f64),
+    secondary: bool,
+    a: f64,
+}
+
+fn full_scale(dt: DataType) -> f64 {
+    match dt {
+        DataType::Binary => 32_000.0,
+        DataType::Binary32 => 2.0e9,
+        DataType::Ascii => 1.0e6,
+        DataType::Float32 => 1.0,
+    }
+}
+
+/// Writes the COMTRADE files for `spec` at `out` (`.cfg`, with `.dat`
+/// beside it, or `.cff`). Returns the number of samples.
+pub fn write_comtrade(
+    spec: &SynthSpec,
+    out: &Path,
+    dt: DataType,
+    rev: Revision,
+) -> std::io::Result<u64> {
+    let cff = out
+        .extension()
+        .and_then(|e| e.to_str())
+        .is_some_and(|e| e.eq_ignore_ascii_case("cff"));
+    let bad = |m: String| std::io::Error::new(std::io::ErrorKind::InvalidInput, m);
+    if cff && rev != Revision::R2013 {
+        return Err(bad("a .cff single file needs revision 2013".into()));
+    }
+    if rev != Revision::R2013 && matches!(dt, DataType::Binary32 | DataType::Float32) {
+        return Err(bad(format!("{} needs revision 2013", dt.name())));
+    }
+    if spec.duration_s > 4000.0 {
+        return Err(bad(
+            "COMTRADE timestamps in µs overflow 32 bits after 4294 s".into(),
+        ));
+    }
+    let use_secondary = rev != Revision::R1991;
+    let n_analog = match spec.layout {
+        SynthLayout::Waveform => 6,
+        SynthLayout::Rms => 3,
+    };
+    let vunit = spec.voltage_unit.label().to_string();
+    let cunit = spec.current_unit.label().to_string();
+    let (pa, pb, pc) = match spec.connection {
+        Connection::PhaseToNeutral => ("A", "B", "C"),
+        Connection::PhaseToPhase => ("AB", "BC", "CA"),
+    };
+    let v_sec = use_secondary && spec.voltage_unit != VoltageUnit::Pu;
+    let i_sec = use_secondary && spec.current_unit != CurrentUnit::Pu;
+    let mk = |name, phase, unit: &str, ratio, secondary| Chan {
+        name,
+        phase,
+        unit: unit.to_string(),
+        ratio,
+        secondary,
+        a: 1.0,
+    };
+    let mut chans: Vec<Chan> = match spec.layout {
+        SynthLayout::Waveform => vec![
+            mk("VA", pa, &vunit, VT_RATIO, v_sec),
+            mk("VB", pb, &vunit, VT_RATIO, v_sec),
+            mk("VC", pc, &vunit, VT_RATIO, v_sec),
+            mk("IA", "A", &cunit, CT_RATIO, i_sec),
+            mk("IB", "B", &cunit, CT_RATIO, i_sec),
+            mk("IC", "C", &cunit, CT_RATIO, i_sec),
+        ],
+        SynthLayout::Rms => vec![
+            mk("V_POS", "", "pu", (1.0, 1.0), false),
+            mk("P", "", "pu", (1.0, 1.0), false),
+            mk("Q", "", "pu", (1.0, 1.0), false),
+        ],
+    };
+    let stored = |c: &Chan, v: f64| {
+        if c.secondary {
+            v * c.ratio.1 / c.ratio.0
+        } else {
+            v
+        }
+    };
+    // First pass: the largest stored value of each channel.
+    let mut peak = vec![0.0f64; n_analog];
+    generate(spec, |_, _, vals| {
+        for k in 0..n_analog {
+            peak[k] = peak[k].max(stored(&chans[k], vals[k]).abs());
+        }
+        Ok(())
+    })?;
+    for (k, c) in chans.iter_mut().enumerate() {
+        c.a = if dt == DataType::Float32 {
+            1.0
+        } else {
+            peak[k].max(1e-12) / full_scale(dt)
+        };
+    }
+    let n = (spec.duration_s * spec.sample_rate_hz).round() as u64 + 1;
+    let nd = usize::from(spec.status_column);
+    // Configuration text (CR/LF line ends, clause 7 of C37.111-2013).
+    let mut cfg = String::new();
+    let mut line = |s: String| {
+        cfg.push_str(&s);
+        cfg.push_str("\r\n");
+    };
+    line(match rev {
+        Revision::R1991 => "SALTMARSH RIDGE,SR07 RECORDER".to_string(),
+        r => format!("SALTMARSH RIDGE,SR07 RECORDER,{}", r.year()),
+    });
+    line(format!("{},{}A,{}D", n_analog + nd, n_analog, nd));
+    let (lo, hi) = match dt {
+        DataType::Binary => ("-32767", "32767"),
+        DataType::Binary32 => ("-2147483647", "2147483647"),
+        DataType::Ascii => ("-99999999", "99999999"),
+        DataType::Float32 => ("-3.4e38", "3.4e38"),
+    };
+    for (k, c) in chans.iter().enumerate() {
+        let base = format!(
+            "{},{},{},SR07,{},{:e},0,0,{lo},{hi}",
+            k + 1,
+            c.name,
+            c.phase,
+            c.unit,
+            c.a
+        );
+        line(match rev {
+            Revision::R1991 => base,
+            _ => format!(
+                "{base},{},{},{}",
+                c.ratio.0,
+                c.ratio.1,
+                if c.secondary { "S" } else { "P" }
+            ),
+        });
+    }
+    if nd == 1 {
+        line(match rev {
+            Revision::R1991 => format!("{},status,1", n_analog + 1),
+            _ => format!("{},status,,SR07,1", n_analog + 1),
+        });
+    }
+    line(format!("{}", spec.ratings.frequency_hz));
+    line("1".into());
+    line(format!("{},{n}", spec.sample_rate_hz));
+    let origin = chrono::NaiveDate::from_ymd_opt(2026, 3, 14)
+        .and_then(|d| d.and_hms_opt(10, 0, 0))
+        .unwrap_or_default();
+    let trig = origin + chrono::Duration::microseconds((spec.fault_start_s * 1e6).round() as i64);
+    // Dates are mm/dd/yyyy in 1991 files and dd/mm/yyyy from 1999 on.
+    let date_fmt = if rev == Revision::R1991 {
+        "%m/%d/%Y,%H:%M:%S%.6f"
+    } else {
+        "%d/%m/%Y,%H:%M:%S%.6f"
+    };
+    line(origin.format(date_fmt).to_string());
+    line(trig.format(date_fmt).to_string());
+    line(dt.name().to_string());
+    if rev != Revision::R1991 {
+        line("1".into());
+    }
+    if rev == Revision::R2013 {
+        line("0,0".into());
+        line("0,0".into());
+    }
+    // Data.
+    let mut data: Vec<u8> = Vec::new();
+    let mut text = String::new();
+    generate(spec, |m, t, vals| {
+        let ts = (t * 1e6).round() as u32;
+        match dt {
+            DataType::Ascii => {
+                use std::fmt::Write as _;
+                text.clear();
+                let _ = write!(text, "{},{}", m + 1, ts);
+                for k in 0..n_analog {
+                    let x = (stored(&chans[k], vals[k]) / chans[k].a).round() as i64;
+                    let _ = write!(text, ",{x}");
+                }
+                if nd == 1 {
+                    let _ = write!(text, ",{}", vals[6] as u8);
+                }
+                text.push_str("\r\n");
+                data.extend_from_slice(text.as_bytes());
+            }
+            _ => {
+                data.extend_from_slice(&((m + 1) as u32).to_le_bytes());
+                data.extend_from_slice(&ts.to_le_bytes());
+                for k in 0..n_analog {
+                    let v = stored(&chans[k], vals[k]) / chans[k].a;
+                    match dt {
+                        DataType::Binary => data.extend_from_slice(
+                            &(v.round().clamp(-32767.0, 32767.0) as i16).to_le_bytes(),
+                        ),
+                        DataType::Binary32 => {
+                            data.extend_from_slice(&(v.round() as i32).to_le_bytes())
+                        }
+                        _ => data.extend_from_slice(&(v as f32).to_le_bytes()),
+                    }
+                }
+                if nd == 1 {
+                    data.extend_from_slice(&(vals[6] as u16).to_le_bytes());
+                }
+            }
+        }
+        Ok(())
+    })?;
+    if let Some(dir) = out.parent().filter(|d| !d.as_os_str().is_empty()) {
+        std::fs::create_dir_all(dir)?;
+    }
+    if cff {
+        let mut f = std::io::BufWriter::new(std::fs::File::create(out)?);
+        f.write_all(b"--- file type: CFG ---\r\n")?;
+        f.write_all(cfg.as_bytes())?;
+        f.write_all(b"--- file type: INF ---\r\n--- file type: HDR ---\r\n")?;
+        match dt {
+            DataType::Ascii => f.write_all(b"--- file type: DAT ASCII ---\r\n")?,
+            _ => write!(
+                f,
+                "--- file type: DAT {}: {} ---\r\n",
+                dt.name(),
+                data.len()
+            )?,
+        }
+        f.write_all(&data)?;
+        f.flush()?;
+    } else {
+        std::fs::write(out, cfg.as_bytes())?;
+        let upper = out
+            .extension()
+            .and_then(|e| e.to_str())
+            .is_some_and(|e| e.chars().any(|c| c.is_ascii_uppercase()));
+        std::fs::write(out.with_extension(if upper { "DAT" } else { "dat" }), &data)?;
+    }
+    Ok(n)
+}
