@@ -69,6 +69,14 @@ pub enum RulesCommand {
         /// Rule-set file (YAML).
         file: PathBuf,
     },
+    /// Draw each envelope and duration table and each reactive-current characteristic (SVG and PNG).
+    Plot {
+        /// Rule-set file (YAML).
+        file: PathBuf,
+        /// Directory for the figures.
+        #[arg(long, default_value = "holdfast-rules-plots", value_name = "DIR")]
+        out: PathBuf,
+    },
 }
 
 /// The unit's ratings (shared by `inspect` and the one-off `check`).

@@ -12,24 +12,27 @@ fn root() -> &'static Path {
     Path::new(env!("CARGO_MANIFEST_DIR"))
 }
 
-/// Runs the README's main command into a temporary directory.
-fn run_sample_plan() -> (tempfile::TempDir, Value, i32) {
-    let dir = tempfile::tempdir().unwrap();
-    let out = Command::cargo_bin("holdfast")
-        .unwrap()
-        .current_dir(root())
-        .args(["check", "sample-data/plan.yaml", "--out"])
-        .arg(dir.path())
-        .output()
-        .unwrap();
-    let code = out.status.code().unwrap_or(-1);
-    assert!(
-        code == 0 || code == 1,
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let text = std::fs::read_to_string(dir.path().join("results.json")).unwrap();
-    (dir, serde_json::from_str(&text).unwrap(), code)
+/// Runs the README's main command once into a temporary directory.
+fn run_sample_plan() -> &'static (tempfile::TempDir, Value, i32) {
+    static RUN: std::sync::OnceLock<(tempfile::TempDir, Value, i32)> = std::sync::OnceLock::new();
+    RUN.get_or_init(|| {
+        let dir = tempfile::tempdir().unwrap();
+        let out = Command::cargo_bin("holdfast")
+            .unwrap()
+            .current_dir(root())
+            .args(["check", "sample-data/plan.yaml", "--out"])
+            .arg(dir.path())
+            .output()
+            .unwrap();
+        let code = out.status.code().unwrap_or(-1);
+        assert!(
+            code == 0 || code == 1,
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let text = std::fs::read_to_string(dir.path().join("results.json")).unwrap();
+        (dir, serde_json::from_str(&text).unwrap(), code)
+    })
 }
 
 #[test]
@@ -51,6 +54,7 @@ fn committed_schema_matches_the_result_types() {
 #[test]
 fn sample_results_validate_against_the_shipped_schema() {
     let (_dir, results, _) = run_sample_plan();
+    let results = results.clone();
     let schema: Value = serde_json::from_str(
         &std::fs::read_to_string(root().join("schemas/results-v1.schema.json")).unwrap(),
     )
@@ -127,6 +131,7 @@ fn field_names_follow_the_interface_document() {
     let mut want = BTreeSet::new();
     key_paths(&example, "", &mut want);
     let (_dir, results, _) = run_sample_plan();
+    let results = results.clone();
     let mut have = BTreeSet::new();
     key_paths(&results, "", &mut have);
     let missing: Vec<_> = want.difference(&have).collect();
@@ -155,6 +160,7 @@ fn sample_plan_gives_the_designed_verdicts() {
     // Each sample recording was built to show one verdict path
     // (sample-data/plan.yaml explains how each answer follows).
     let (dir, results, code) = run_sample_plan();
+    let code = *code;
     assert_eq!(code, 1, "the sample plan contains failing tests by design");
     let expected = [
         (

@@ -8,6 +8,8 @@ use crate::import::{self, ImportOptions};
 use crate::model::{Ratings, RecordingKind};
 use crate::plan::{self, ResolvedTest};
 use crate::report;
+use crate::report::figures::FigureInput;
+use crate::report::html::RenderedFigure;
 use crate::rules::engine;
 use crate::rules::result::{FileRef, RecordingResult, Results, TestResult, Tool, Verdict};
 use crate::rules::{self, LoadedRules};
@@ -136,13 +138,35 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
     }
 }
 
-/// Evaluates one test.
+/// Keeps letters, digits, '-' and '_' of a test id for file names.
+fn file_safe(id: &str) -> String {
+    let s: String = id
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
+                c
+            } else {
+                '_'
+            }
+        })
+        .take(60)
+        .collect();
+    if s.is_empty() {
+        "test".into()
+    } else {
+        s
+    }
+}
+
+/// Evaluates one test; with `plots`, also draws its figures into that directory.
 pub fn run_test(
     test: &ResolvedTest,
+    index: usize,
     rules: &LoadedRules,
     ratings: &Ratings,
     opts: &ImportOptions,
-) -> Result<TestResult, InputError> {
+    plots: Option<&Path>,
+) -> Result<(TestResult, Vec<RenderedFigure>), InputError> {
     let source = import::open(&test.file, &test.map, opts)?;
     let settings = AnalysisSettings {
         ratings: ratings.rated_kv.is_finite().then_some(*ratings),
@@ -155,9 +179,39 @@ pub fn run_test(
     let sha256 = crate::digest::sha256_file(&test.file)
         .map_err(|e| InputError::new(&test.file, format!("cannot read recording: {e}")))?;
     let info = &analysed.info;
+    let mut figures = Vec::new();
+    if let (Some(dir), Some(applicable)) = (plots, outcome.applicable.as_deref()) {
+        let input = FigureInput {
+            test_id: &test.id,
+            series: &analysed.series,
+            applicable,
+            rules: &rules.rules,
+            disturbances: &outcome.disturbances,
+            trip: &outcome.trip,
+            checks: &outcome.checks,
+            frequency_hz: ratings.frequency_hz,
+        };
+        for fig in report::figures::figures(&input) {
+            let stem = format!("{:03}-{}-{}", index + 1, file_safe(&test.id), fig.quantity);
+            let (svg, _) = report::plot::svg(&fig.spec)
+                .map_err(|e| InputError::new(dir, format!("drawing {stem}: {e}")))?;
+            let svg_path = dir.join(format!("{stem}.svg"));
+            std::fs::write(&svg_path, &svg)
+                .map_err(|e| InputError::new(&svg_path, format!("cannot write figure: {e}")))?;
+            let png_path = dir.join(format!("{stem}.png"));
+            report::plot::png(&fig.spec, &png_path)
+                .map_err(|e| InputError::new(&png_path, format!("cannot write figure: {e}")))?;
+            figures.push(RenderedFigure {
+                quantity: fig.quantity.to_string(),
+                title: fig.spec.title.clone(),
+                svg,
+                files: vec![format!("{stem}.svg"), format!("{stem}.png")],
+            });
+        }
+    }
     let mut notes = info.notes.clone();
     notes.extend(outcome.notes);
-    Ok(TestResult {
+    let result = TestResult {
         id: test.id.clone(),
         recording: RecordingResult {
             path: test.file.display().to_string(),
@@ -174,6 +228,11 @@ pub fn run_test(
             ),
             samples: Some(info.samples),
             header: info.header.clone(),
+            channels: info
+                .channels
+                .iter()
+                .map(|c| format!("{} ← {} ({})", c.key.name(), c.source, c.unit))
+                .collect(),
         },
         verdict: outcome.verdict,
         disturbances: outcome.disturbances.iter().map(Into::into).collect(),
@@ -181,11 +240,18 @@ pub fn run_test(
         checks: outcome.checks,
         rules: (test.rules != 0).then(|| file_ref(rules)),
         notes,
-    })
+    };
+    Ok((result, figures))
 }
 
 /// Runs every test of the job in parallel; all input errors are collected.
-pub fn run_job(job: &Job, jobs: usize, progress: bool) -> Result<Results, InputErrors> {
+/// With `plots`, figures are drawn into that directory and returned per test.
+pub fn run_job(
+    job: &Job,
+    jobs: usize,
+    progress: bool,
+    plots: Option<&Path>,
+) -> Result<(Results, Vec<Vec<RenderedFigure>>), InputErrors> {
     let mut opts = job.options;
     if job.tests.len() > 1 {
         opts.threads = 1; // files in parallel, one parsing thread each
@@ -202,8 +268,9 @@ pub fn run_job(job: &Job, jobs: usize, progress: bool) -> Result<Results, InputE
     let work = || {
         job.tests
             .par_iter()
-            .map(|t| {
-                let r = run_test(t, &job.rules[t.rules], &job.ratings, &opts);
+            .enumerate()
+            .map(|(k, t)| {
+                let r = run_test(t, k, &job.rules[t.rules], &job.ratings, &opts, plots);
                 bar.inc(1);
                 r
             })
@@ -220,9 +287,13 @@ pub fn run_job(job: &Job, jobs: usize, progress: bool) -> Result<Results, InputE
     bar.finish_and_clear();
     let mut tests = Vec::new();
     let mut errs = Vec::new();
+    let mut figures = Vec::new();
     for o in outcomes {
         match o {
-            Ok(t) => tests.push(t),
+            Ok((t, f)) => {
+                tests.push(t);
+                figures.push(f);
+            }
             Err(e) => errs.push(e),
         }
     }
@@ -230,7 +301,7 @@ pub fn run_job(job: &Job, jobs: usize, progress: bool) -> Result<Results, InputE
         return Err(InputErrors(errs));
     }
     let verdict = Verdict::combine(tests.iter().map(|t| t.verdict));
-    Ok(Results {
+    let results = Results {
         schema_version: 1,
         tool: Tool {
             name: "holdfast".into(),
@@ -250,7 +321,8 @@ pub fn run_job(job: &Job, jobs: usize, progress: bool) -> Result<Results, InputE
         generated_utc: Some(chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true)),
         command_line: Some(command_line()),
         caution: Some(CAUTION.into()),
-    })
+    };
+    Ok((results, figures))
 }
 
 fn command_line() -> String {
@@ -267,17 +339,31 @@ fn command_line() -> String {
 }
 
 /// Writes the evidence pack into `dir`.
-pub fn write_pack(results: &Results, dir: &Path) -> anyhow::Result<()> {
+pub fn write_pack(
+    results: &Results,
+    figures: Vec<Vec<RenderedFigure>>,
+    dir: &Path,
+) -> anyhow::Result<()> {
     std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
     report::write_json(results, &dir.join("results.json"))?;
     report::summary_csv::write(results, &dir.join("summary.csv"))?;
+    let html = report::html::render(results, figures).context("rendering report.html")?;
+    let path = dir.join("report.html");
+    std::fs::write(&path, html).with_context(|| format!("writing {}", path.display()))?;
     Ok(())
 }
 
 pub fn run(args: &CheckArgs) -> anyhow::Result<u8> {
     let job = job_from_args(args)?;
-    let results = run_job(&job, args.jobs, std::io::stderr().is_terminal())?;
-    write_pack(&results, &args.out)?;
+    let plots = args.out.join("plots");
+    std::fs::create_dir_all(&plots).with_context(|| format!("creating {}", plots.display()))?;
+    let (results, figures) = run_job(
+        &job,
+        args.jobs,
+        std::io::stderr().is_terminal(),
+        Some(&plots),
+    )?;
+    write_pack(&results, figures, &args.out)?;
     let stdout = std::io::stdout();
     let tty = stdout.is_terminal();
     let mut out = stdout.lock();

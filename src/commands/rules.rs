@@ -2,6 +2,7 @@
 
 use crate::cli::{RulesArgs, RulesCommand};
 use crate::rules::spec::CheckSpec;
+use anyhow::Context;
 use std::io::Write;
 
 pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
@@ -35,6 +36,33 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
                     ),
                 };
                 writeln!(out, "  check   {:<14} {what}", c.id())?;
+            }
+            Ok(0)
+        }
+        RulesCommand::Plot { file, out } => {
+            let loaded = crate::rules::load(file)?;
+            std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
+            let mut stdout = std::io::stdout().lock();
+            for (id, spec) in crate::report::figures::rule_figures(&loaded.rules) {
+                let stem: String = id
+                    .chars()
+                    .map(|c| {
+                        if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
+                            c
+                        } else {
+                            '_'
+                        }
+                    })
+                    .collect();
+                let (svg, _) = crate::report::plot::svg(&spec)
+                    .map_err(|e| anyhow::anyhow!("drawing {id}: {e}"))?;
+                let svg_path = out.join(format!("{stem}.svg"));
+                std::fs::write(&svg_path, svg)
+                    .with_context(|| format!("writing {}", svg_path.display()))?;
+                let png_path = out.join(format!("{stem}.png"));
+                crate::report::plot::png(&spec, &png_path)
+                    .map_err(|e| anyhow::anyhow!("writing {}: {e}", png_path.display()))?;
+                writeln!(stdout, "{}\n{}", svg_path.display(), png_path.display())?;
             }
             Ok(0)
         }

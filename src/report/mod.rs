@@ -1,6 +1,9 @@
 //! Reporters: render the neutral [`Results`](crate::rules::result::Results)
 //! and compute nothing themselves.
 
+pub mod figures;
+pub mod html;
+pub mod plot;
 pub mod summary_csv;
 pub mod table;
 

@@ -201,6 +201,9 @@ pub struct RecordingResult {
     /// Format facts worth a reviewer's eye (e.g. COMTRADE station, revision).
     #[serde(default)]
     pub header: Vec<(String, String)>,
+    /// Mapped channels: `key ← source name (unit)`.
+    #[serde(default)]
+    pub channels: Vec<String>,
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
