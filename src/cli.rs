@@ -31,6 +31,20 @@ pub enum Command {
     Check(Box<CheckArgs>),
     /// Work with rule sets.
     Rules(RulesArgs),
+    /// Work with test plans.
+    Plan(PlanArgs),
+}
+
+#[derive(Args, Debug)]
+pub struct PlanArgs {
+    #[command(subcommand)]
+    pub command: PlanCommand,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum PlanCommand {
+    /// Print the JSON Schema of the test-plan format.
+    Schema,
 }
 
 #[derive(Args, Debug)]
@@ -50,6 +64,9 @@ pub struct CheckArgs {
     /// Tests evaluated at once (0: one per core).
     #[arg(long, default_value_t = 0, value_name = "N")]
     pub jobs: usize,
+    /// Choose a rule-set parameter: NAME=VALUE, repeatable (over the plan's values).
+    #[arg(long = "set", value_name = "NAME=VALUE")]
+    pub set: Vec<String>,
     #[command(flatten)]
     pub ratings: RatingArgs,
     #[command(flatten)]
@@ -68,6 +85,9 @@ pub enum RulesCommand {
     Lint {
         /// Rule-set file (YAML).
         file: PathBuf,
+        /// Choose a parameter: NAME=VALUE, repeatable.
+        #[arg(long = "set", value_name = "NAME=VALUE")]
+        set: Vec<String>,
     },
     /// Draw each envelope and duration table and each reactive-current characteristic (SVG and PNG).
     Plot {
@@ -76,7 +96,14 @@ pub enum RulesCommand {
         /// Directory for the figures.
         #[arg(long, default_value = "holdfast-rules-plots", value_name = "DIR")]
         out: PathBuf,
+        /// Choose a parameter: NAME=VALUE, repeatable.
+        #[arg(long = "set", value_name = "NAME=VALUE")]
+        set: Vec<String>,
     },
+    /// Print the JSON Schema of the rule-set format.
+    Schema,
+    /// List the rule sets shipped with holdfast: title, source, parameters.
+    List,
 }
 
 /// The unit's ratings (shared by `inspect` and the one-off `check`).
@@ -340,4 +367,24 @@ pub struct SynthArgs {
     /// Add a status column (1 connected, 0 tripped).
     #[arg(long)]
     pub status: bool,
+}
+
+/// Parses `--set NAME=VALUE` flags.
+pub fn parse_set(items: &[String]) -> Result<std::collections::BTreeMap<String, f64>, UsageError> {
+    let mut out = std::collections::BTreeMap::new();
+    for item in items {
+        let (k, v) = item.split_once('=').ok_or_else(|| {
+            UsageError(format!(
+                "--set '{item}' is not NAME=VALUE (e.g. --set t_clear=0.15)"
+            ))
+        })?;
+        let v: f64 = v
+            .trim()
+            .parse()
+            .ok()
+            .filter(|x: &f64| x.is_finite())
+            .ok_or_else(|| UsageError(format!("--set '{item}': '{v}' is not a number")))?;
+        out.insert(k.trim().to_string(), v);
+    }
+    Ok(out)
 }

@@ -9,6 +9,7 @@ use crate::rules::realisation::Expect;
 use crate::rules::yaml;
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 #[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
@@ -20,6 +21,9 @@ pub struct Plan {
     /// Default channel mapping for every recording.
     #[serde(default)]
     pub channels: Option<ChannelsSpec>,
+    /// Values of the rule set's parameters (within their published ranges).
+    #[serde(default)]
+    pub parameters: BTreeMap<String, f64>,
     pub tests: Vec<TestSpec>,
 }
 
@@ -93,6 +97,9 @@ pub struct TestSpec {
     /// A rule set for this test instead of the plan's.
     #[serde(default)]
     pub rules: Option<String>,
+    /// Parameter values for this test (over the plan's, for the plan's rule set).
+    #[serde(default)]
+    pub parameters: BTreeMap<String, f64>,
     /// Free-text description.
     #[serde(default)]
     pub description: Option<String>,
@@ -221,8 +228,8 @@ pub struct LoadedPlan {
     pub path: PathBuf,
     pub sha256: String,
     pub ratings: Ratings,
-    /// Rule-set files: the plan's first, then per-test ones.
-    pub rule_files: Vec<PathBuf>,
+    /// Rule sets with their parameter values: the plan's first, then per-test ones.
+    pub rule_files: Vec<(PathBuf, BTreeMap<String, f64>)>,
     pub tests: Vec<ResolvedTest>,
 }
 
@@ -274,7 +281,7 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
     if let Err((key, m)) = defaults.to_map() {
         err(None, key, m);
     }
-    let mut rule_files = vec![dir.join(&plan.rules)];
+    let mut rule_files = vec![(dir.join(&plan.rules), plan.parameters.clone())];
     let mut tests = Vec::new();
     let mut seen = std::collections::HashSet::new();
     for (i, t) in plan.tests.iter().enumerate() {
@@ -291,18 +298,20 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
                 err(Some(i), key, m);
             }
         }
-        let rules = match &t.rules {
-            Some(r) => {
-                let p = dir.join(r);
-                match rule_files.iter().position(|x| *x == p) {
-                    Some(k) => k,
-                    None => {
-                        rule_files.push(p);
-                        rule_files.len() - 1
-                    }
-                }
+        let key = match &t.rules {
+            Some(r) => (dir.join(r), t.parameters.clone()),
+            None => {
+                let mut p = plan.parameters.clone();
+                p.extend(t.parameters.clone());
+                (dir.join(&plan.rules), p)
             }
-            None => 0,
+        };
+        let rules = match rule_files.iter().position(|x| *x == key) {
+            Some(k) => k,
+            None => {
+                rule_files.push(key);
+                rule_files.len() - 1
+            }
         };
         match defaults.merged(t.channels.as_ref()).to_map() {
             Ok(map) => tests.push(ResolvedTest {

@@ -38,14 +38,45 @@ fn file_ref(r: &LoadedRules) -> FileRef {
     }
 }
 
-fn load_rules(paths: &[PathBuf]) -> Result<Vec<LoadedRules>, InputErrors> {
+/// Loads each rule set with its parameter values (from the plan), with the
+/// `--set` values over them for every rule set that declares the name.
+fn load_rules(
+    sets: &[(PathBuf, std::collections::BTreeMap<String, f64>)],
+    cli: &std::collections::BTreeMap<String, f64>,
+) -> Result<Vec<LoadedRules>, InputErrors> {
     let mut out = Vec::new();
     let mut errs = Vec::new();
-    for p in paths {
-        match rules::load(p) {
+    let mut used = std::collections::BTreeSet::new();
+    for (p, plan_values) in sets {
+        let declared = rules::load(p).map(|r| {
+            r.rules
+                .parameters
+                .iter()
+                .map(|x| x.name.clone())
+                .collect::<Vec<_>>()
+        });
+        let mut choices: rules::params::Choices = plan_values
+            .iter()
+            .map(|(k, v)| (k.clone(), (*v, "plan".to_string())))
+            .collect();
+        if let Ok(names) = &declared {
+            for (k, v) in cli {
+                if names.contains(k) {
+                    choices.insert(k.clone(), (*v, "--set".to_string()));
+                    used.insert(k.clone());
+                }
+            }
+        }
+        match rules::load_with(p, &choices) {
             Ok(r) => out.push(r),
             Err(e) => errs.extend(e.0),
         }
+    }
+    for k in cli.keys().filter(|k| !used.contains(*k)) {
+        errs.push(InputError::new(
+            sets.first().map_or(Path::new(""), |s| s.0.as_path()),
+            format!("--set {k}: no rule set of this run declares a parameter '{k}'"),
+        ));
     }
     if errs.is_empty() {
         Ok(out)
@@ -73,7 +104,7 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
                 .into());
             }
             let lp = plan::load(&args.inputs[0])?;
-            let rules = load_rules(&lp.rule_files)?;
+            let rules = load_rules(&lp.rule_files, &crate::cli::parse_set(&args.set)?)?;
             options.threads = 0;
             Ok(Job {
                 plan: Some((lp.path.clone(), lp.sha256.clone())),
@@ -103,7 +134,10 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
                     r
                 },
             );
-            let rules = load_rules(std::slice::from_ref(rp))?;
+            let rules = load_rules(
+                &[(rp.clone(), Default::default())],
+                &crate::cli::parse_set(&args.set)?,
+            )?;
             let mut seen = std::collections::HashMap::new();
             let tests = args
                 .inputs
@@ -239,6 +273,11 @@ pub fn run_test(
         trip: (&outcome.trip).into(),
         checks: outcome.checks,
         rules: (test.rules != 0).then(|| file_ref(rules)),
+        parameters: rules
+            .parameters
+            .iter()
+            .map(|p| (p.name.clone(), p.value))
+            .collect(),
         notes,
     };
     Ok((result, figures))

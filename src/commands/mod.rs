@@ -15,5 +15,13 @@ pub fn run(cli: Cli) -> anyhow::Result<u8> {
         Command::Synth(args) => synth::run(&args),
         Command::Check(args) => check::run(&args),
         Command::Rules(args) => rules::run(&args),
+        Command::Plan(args) => match args.command {
+            crate::cli::PlanCommand::Schema => {
+                use std::io::Write;
+                let text = serde_json::to_string_pretty(&crate::rules::schema::plan_schema())?;
+                writeln!(std::io::stdout().lock(), "{text}")?;
+                Ok(0)
+            }
+        },
     }
 }

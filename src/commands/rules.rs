@@ -7,8 +7,9 @@ use std::io::Write;
 
 pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
     match &args.command {
-        RulesCommand::Lint { file } => {
-            let loaded = crate::rules::load(file)?;
+        RulesCommand::Lint { file, set } => {
+            let choices = set_choices(set)?;
+            let loaded = crate::rules::load_with(file, &choices)?;
             let r = &loaded.rules;
             let mut out = std::io::stdout().lock();
             writeln!(out, "{}: ok", file.display())?;
@@ -21,6 +22,23 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
                 "  disturbance below {} pu / above {} pu, hysteresis {} pu",
                 r.disturbance.below_pu, r.disturbance.above_pu, r.disturbance.hysteresis_pu
             )?;
+            for p in &loaded.parameters {
+                writeln!(
+                    out,
+                    "  param   {:<14} = {} {} ({}; allowed {} to {}){}",
+                    p.name,
+                    p.value,
+                    p.unit,
+                    p.origin,
+                    p.range.0,
+                    p.range.1,
+                    if p.description.is_empty() {
+                        String::new()
+                    } else {
+                        format!(" – {}", p.description)
+                    }
+                )?;
+            }
             for c in &r.checks {
                 let what = match c {
                     CheckSpec::Envelope(e) => format!("{:?} envelope, {} points", e.bound, e.points.len()).to_lowercase(),
@@ -39,8 +57,53 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
             }
             Ok(0)
         }
-        RulesCommand::Plot { file, out } => {
-            let loaded = crate::rules::load(file)?;
+        RulesCommand::Schema => {
+            let text = serde_json::to_string_pretty(&crate::rules::schema::rules_schema())?;
+            writeln!(std::io::stdout().lock(), "{text}")?;
+            Ok(0)
+        }
+        RulesCommand::List => {
+            let mut out = std::io::stdout().lock();
+            for (name, text) in crate::rules::library::SHIPPED {
+                let path = std::path::Path::new("rules").join(name);
+                let sha = crate::digest::sha256_bytes(text.as_bytes());
+                let loaded = crate::rules::load_text(&path, text, sha, &Default::default())?;
+                let r = &loaded.rules;
+                writeln!(out, "rules/{name}")?;
+                writeln!(out, "  title   {}", r.title)?;
+                writeln!(out, "  source  {}", r.source)?;
+                writeln!(
+                    out,
+                    "  checks  {}",
+                    r.checks
+                        .iter()
+                        .map(|c| format!("{} ({})", c.id(), c.type_name()))
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                )?;
+                for p in &loaded.parameters {
+                    writeln!(
+                        out,
+                        "  param   {} = {} {} (allowed {} to {}){}",
+                        p.name,
+                        p.value,
+                        p.unit,
+                        p.range.0,
+                        p.range.1,
+                        if p.description.is_empty() {
+                            String::new()
+                        } else {
+                            format!(" – {}", p.description)
+                        }
+                    )?;
+                }
+                writeln!(out)?;
+            }
+            writeln!(out, "{}", crate::cli::CAUTION)?;
+            Ok(0)
+        }
+        RulesCommand::Plot { file, out, set } => {
+            let loaded = crate::rules::load_with(file, &set_choices(set)?)?;
             std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
             let mut stdout = std::io::stdout().lock();
             for (id, spec) in crate::report::figures::rule_figures(&loaded.rules) {
@@ -67,4 +130,11 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
             Ok(0)
         }
     }
+}
+
+fn set_choices(set: &[String]) -> anyhow::Result<crate::rules::params::Choices> {
+    Ok(crate::cli::parse_set(set)?
+        .into_iter()
+        .map(|(k, v)| (k, (v, "--set".to_string())))
+        .collect())
 }

@@ -9,11 +9,14 @@
 //! * [`result`] – the neutral result type every reporter renders.
 
 pub mod engine;
+pub mod library;
 pub mod locate;
+pub mod params;
 pub mod reactive;
 pub mod realisation;
 pub mod recovery;
 pub mod result;
+pub mod schema;
 pub mod spec;
 pub mod yaml;
 pub mod zone;
@@ -28,11 +31,44 @@ pub struct LoadedRules {
     pub rules: RuleSet,
     pub path: PathBuf,
     pub sha256: String,
+    /// Parameter values used for this run.
+    pub parameters: Vec<params::Resolved>,
 }
 
-/// Loads and validates a rule set; all value problems are reported at once.
+/// Loads and validates a rule set with its default parameter values.
 pub fn load(path: &Path) -> Result<LoadedRules, InputErrors> {
-    let text = yaml::read_text(path, "rule set")?;
+    load_with(path, &params::Choices::new())
+}
+
+/// Loads and validates a rule set with chosen parameter values; all value
+/// problems are reported at once.
+pub fn load_with(path: &Path, choices: &params::Choices) -> Result<LoadedRules, InputErrors> {
+    let raw = yaml::read_text(path, "rule set")?;
+    let sha256 = crate::digest::sha256_file(path)
+        .map_err(|e| InputError::new(path, format!("cannot read rule set: {e}")))?;
+    load_text(path, &raw, sha256, choices)
+}
+
+/// Loads a rule set from its text (`path` names it in messages).
+pub fn load_text(
+    path: &Path,
+    raw: &str,
+    sha256: String,
+    choices: &params::Choices,
+) -> Result<LoadedRules, InputErrors> {
+    let raw = raw.strip_prefix('\u{feff}').unwrap_or(raw);
+    // Parameters first: their values replace "$name" in the checks.
+    #[derive(serde::Deserialize)]
+    struct Head {
+        #[serde(default)]
+        parameters: Vec<params::ParameterSpec>,
+        #[serde(default)]
+        source: String,
+    }
+    let head: Head = yaml::parse(path, raw)?;
+    let resolved =
+        params::resolve(path, raw, &head.parameters, &head.source, choices).map_err(InputErrors)?;
+    let text = params::substitute(path, raw, &resolved).map_err(InputErrors)?;
     let rules: RuleSet = match yaml::parse(path, &text) {
         Ok(r) => r,
         Err(first) => {
@@ -67,9 +103,9 @@ pub fn load(path: &Path) -> Result<LoadedRules, InputErrors> {
     }
     Ok(LoadedRules {
         rules,
+        parameters: resolved,
         path: path.to_path_buf(),
-        sha256: crate::digest::sha256_file(path)
-            .map_err(|e| InputError::new(path, format!("cannot read rule set: {e}")))?,
+        sha256,
     })
 }
 

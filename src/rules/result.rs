@@ -217,6 +217,9 @@ pub struct TestResult {
     /// Rule set used by this test when it differs from the plan's.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub rules: Option<FileRef>,
+    /// Parameter values of the rule set used for this test.
+    #[serde(default, skip_serializing_if = "std::collections::BTreeMap::is_empty")]
+    pub parameters: std::collections::BTreeMap<String, f64>,
     #[serde(default)]
     pub notes: Vec<String>,
 }

@@ -18,6 +18,10 @@ pub struct RuleSet {
     pub title: String,
     /// Which published document, edition and clause the numbers follow.
     pub source: String,
+    /// Values the grid code leaves to the network operator within published
+    /// ranges; checks refer to them as `"$name"` where a number is expected.
+    #[serde(default)]
+    pub parameters: Vec<super::params::ParameterSpec>,
     /// The voltage the envelopes and tables judge.
     #[serde(default)]
     pub applicable_voltage: ApplicableVoltage,

@@ -1,0 +1,312 @@
+//! Rule-set parameters: values a grid code leaves to the network operator
+//! within published ranges. A rule set declares them in a `parameters` block
+//!
+//! ```yaml
+//! parameters:
+//!   - { name: t_clear, unit: s, range: [0.14, 0.25], default: 0.15, description: "..." }
+//!   - { name: t_rec1, unit: s, range: ["$t_clear", 0.45], default: 0.15 }
+//! ```
+//!
+//! and refers to them as `"$name"` wherever a number is expected. A plan's
+//! `parameters` map or `--set name=value` chooses values; a value outside
+//! its range is an error that cites the range and the rule set's source.
+//! Range ends may refer to other parameters.
+
+use crate::error::InputError;
+use schemars::JsonSchema;
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+use std::path::Path;
+
+/// A number, or `"$name"` of a parameter.
+#[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
+#[serde(untagged)]
+pub enum NumOrRef {
+    Num(f64),
+    Ref(String),
+}
+
+#[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct ParameterSpec {
+    /// Identifier used as `"$name"` in the checks.
+    pub name: String,
+    /// Unit, e.g. `pu` or `s`.
+    pub unit: String,
+    /// Allowed range `[min, max]` as published; ends may be `"$other"`.
+    pub range: [NumOrRef; 2],
+    /// Value used when neither the plan nor `--set` chooses one.
+    pub default: NumOrRef,
+    #[serde(default)]
+    pub description: String,
+}
+
+/// A parameter with its value for this run.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Resolved {
+    pub name: String,
+    pub unit: String,
+    pub value: f64,
+    pub range: (f64, f64),
+    /// `default`, `plan` or `--set`.
+    pub origin: String,
+    pub description: String,
+}
+
+/// Chosen values and where they came from (`plan`, `--set`).
+pub type Choices = BTreeMap<String, (f64, String)>;
+
+fn ident_ok(s: &str) -> bool {
+    let mut c = s.chars();
+    matches!(c.next(), Some(x) if x.is_ascii_alphabetic() || x == '_')
+        && c.all(|x| x.is_ascii_alphanumeric() || x == '_')
+}
+
+/// Resolves the declared parameters with the chosen values.
+pub fn resolve(
+    path: &Path,
+    text: &str,
+    specs: &[ParameterSpec],
+    source: &str,
+    choices: &Choices,
+) -> Result<Vec<Resolved>, Vec<InputError>> {
+    let mut errs = Vec::new();
+    let at = |i: usize, key: &str, msg: String| {
+        let mut e = InputError::new(path, msg).field(format!("parameters[{i}].{key}"));
+        if let Some((l, c)) = super::locate::locate(text, "parameters", Some(i), key) {
+            e = e.line(l).column(c);
+        }
+        e
+    };
+    let mut seen = std::collections::HashSet::new();
+    for (i, p) in specs.iter().enumerate() {
+        if !ident_ok(&p.name) {
+            errs.push(at(
+                i,
+                "name",
+                format!(
+                    "parameter name '{}' must be letters, digits and '_'",
+                    p.name
+                ),
+            ));
+        } else if !seen.insert(p.name.clone()) {
+            errs.push(at(
+                i,
+                "name",
+                format!("parameter '{}' is declared twice", p.name),
+            ));
+        }
+    }
+    for name in choices.keys() {
+        if !specs.iter().any(|p| &p.name == name) {
+            let names: Vec<&str> = specs.iter().map(|p| p.name.as_str()).collect();
+            errs.push(
+                InputError::new(path, format!("the rule set has no parameter '{name}'")).hint(
+                    if names.is_empty() {
+                        "this rule set declares no parameters".to_string()
+                    } else {
+                        format!("its parameters are: {}", names.join(", "))
+                    },
+                ),
+            );
+        }
+    }
+    if !errs.is_empty() {
+        return Err(errs);
+    }
+    // Values: chosen, else default; defaults and range ends may refer to
+    // other parameters, so resolve in passes.
+    let mut values: BTreeMap<String, f64> = BTreeMap::new();
+    for (n, (v, _)) in choices {
+        values.insert(n.clone(), *v);
+    }
+    let lookup = |v: &NumOrRef, values: &BTreeMap<String, f64>| -> Result<Option<f64>, String> {
+        match v {
+            NumOrRef::Num(x) => Ok(Some(*x)),
+            NumOrRef::Ref(r) => {
+                let name = r
+                    .strip_prefix('$')
+                    .ok_or_else(|| format!("'{r}' is neither a number nor \"$parameter\""))?;
+                if !specs.iter().any(|p| p.name == name) {
+                    return Err(format!("'{r}' refers to an undeclared parameter"));
+                }
+                Ok(values.get(name).copied())
+            }
+        }
+    };
+    for _ in 0..=specs.len() {
+        for p in specs {
+            if values.contains_key(&p.name) {
+                continue;
+            }
+            match lookup(&p.default, &values) {
+                Ok(Some(v)) => {
+                    values.insert(p.name.clone(), v);
+                }
+                Ok(None) => {}
+                Err(m) => errs.push(at(
+                    specs.iter().position(|x| x.name == p.name).unwrap_or(0),
+                    "default",
+                    m,
+                )),
+            }
+        }
+        if !errs.is_empty() {
+            return Err(errs);
+        }
+    }
+    let mut out = Vec::new();
+    for (i, p) in specs.iter().enumerate() {
+        let Some(value) = values.get(&p.name).copied() else {
+            errs.push(at(
+                i,
+                "default",
+                format!(
+                    "the default of '{}' refers to parameters in a cycle",
+                    p.name
+                ),
+            ));
+            continue;
+        };
+        let lo = lookup(&p.range[0], &values);
+        let hi = lookup(&p.range[1], &values);
+        let (lo, hi) = match (lo, hi) {
+            (Ok(Some(a)), Ok(Some(b))) => (a, b),
+            (Err(m), _) | (_, Err(m)) => {
+                errs.push(at(i, "range", m));
+                continue;
+            }
+            _ => {
+                errs.push(at(
+                    i,
+                    "range",
+                    "the range refers to a parameter without a value".into(),
+                ));
+                continue;
+            }
+        };
+        if !(lo <= hi) {
+            errs.push(at(
+                i,
+                "range",
+                format!("range [{lo}, {hi}] of '{}' is empty", p.name),
+            ));
+            continue;
+        }
+        let origin = choices
+            .get(&p.name)
+            .map_or("default".to_string(), |c| c.1.clone());
+        let eps = 1e-9 * (1.0 + lo.abs().max(hi.abs()));
+        if !(value >= lo - eps && value <= hi + eps) {
+            let mut e = InputError::new(
+                path,
+                format!(
+                    "parameter '{}' = {value} {} ({origin}) is outside its allowed range {lo} to {hi} {}",
+                    p.name, p.unit, p.unit
+                ),
+            )
+            .field(format!("parameters[{i}] ({})", p.name))
+            .hint(format!("the range follows the rule set's source: {source}"));
+            if origin == "default" {
+                if let Some((l, c)) = super::locate::locate(text, "parameters", Some(i), "default")
+                {
+                    e = e.line(l).column(c);
+                }
+            }
+            errs.push(e);
+            continue;
+        }
+        out.push(Resolved {
+            name: p.name.clone(),
+            unit: p.unit.clone(),
+            value,
+            range: (lo, hi),
+            origin,
+            description: p.description.clone(),
+        });
+    }
+    if errs.is_empty() {
+        Ok(out)
+    } else {
+        Err(errs)
+    }
+}
+
+/// Replaces every `"$name"` / `'$name'` / `$name` of a declared parameter in
+/// the rule-set text by its value, outside the `parameters` block and
+/// comments. Line numbers stay the same; an unknown `$name` is an error.
+pub fn substitute(path: &Path, text: &str, values: &[Resolved]) -> Result<String, Vec<InputError>> {
+    let mut out = String::with_capacity(text.len());
+    let mut errs = Vec::new();
+    let mut in_params = false;
+    for (ln, line) in text.split_inclusive('\n').enumerate() {
+        if !line.starts_with(' ')
+            && !line.starts_with('-')
+            && !line.starts_with('#')
+            && !line.trim().is_empty()
+        {
+            in_params = line.starts_with("parameters:");
+        }
+        if in_params {
+            out.push_str(line);
+            continue;
+        }
+        let bytes = line.as_bytes();
+        let mut i = 0;
+        let mut last = 0;
+        let mut in_comment = false;
+        while i < bytes.len() {
+            let c = bytes[i];
+            if c == b'#' && (i == 0 || bytes[i - 1] == b' ' || bytes[i - 1] == b'\t') {
+                in_comment = true;
+            }
+            if !in_comment && c == b'$' {
+                let start = i + 1;
+                let mut end = start;
+                while end < bytes.len()
+                    && (bytes[end].is_ascii_alphanumeric() || bytes[end] == b'_')
+                {
+                    end += 1;
+                }
+                let name = &line[start..end];
+                if !name.is_empty() && ident_ok(name) {
+                    // Include surrounding quotes, if any.
+                    let q0 = i > 0 && (bytes[i - 1] == b'"' || bytes[i - 1] == b'\'');
+                    let q1 = end < bytes.len() && (bytes[end] == b'"' || bytes[end] == b'\'');
+                    let (a, b) = if q0 && q1 && bytes[i - 1] == bytes[end] {
+                        (i - 1, end + 1)
+                    } else {
+                        (i, end)
+                    };
+                    match values.iter().find(|v| v.name == name) {
+                        Some(v) => {
+                            out.push_str(&line[last..a]);
+                            out.push_str(&format!("{:?}", v.value));
+                            last = b;
+                        }
+                        None => {
+                            errs.push(
+                                InputError::new(
+                                    path,
+                                    format!("'${name}' is not a declared parameter"),
+                                )
+                                .line(ln as u64 + 1)
+                                .column(i as u64 + 1)
+                                .hint("declare it in the parameters block, or write a number"),
+                            );
+                        }
+                    }
+                    i = end;
+                    continue;
+                }
+            }
+            i += 1;
+        }
+        out.push_str(&line[last..]);
+    }
+    if errs.is_empty() {
+        Ok(out)
+    } else {
+        Err(errs)
+    }
+}
