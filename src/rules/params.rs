@@ -26,6 +26,36 @@ pub enum NumOrRef {
     Ref(String),
 }
 
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn r(name: &str, value: f64) -> Resolved {
+        Resolved {
+            name: name.into(),
+            unit: "s".into(),
+            value,
+            range: (0.0, 1.0),
+            origin: "default".into(),
+            description: String::new(),
+        }
+    }
+
+    #[test]
+    fn substitution_keeps_lines_and_skips_comments() {
+        let v = [r("a", 0.15), r("b", 2.0)];
+        let text = "checks:\n  - { x: \"$a\", y: '$b' } # $c stays\n  - [$a, \"$a\"$b\"]\n";
+        let out = substitute(Path::new("t.yaml"), text, &v).unwrap();
+        // Hostile adjacent tokens must not panic (quotes are consumed once).
+        assert_eq!(
+            out,
+            "checks:\n  - { x: 0.15, y: 2.0 } # $c stays\n  - [0.15, 0.152.0]\n"
+        );
+        let e = substitute(Path::new("t.yaml"), "x: $nope\n", &v).unwrap_err();
+        assert_eq!((e[0].line, e[0].column), (Some(1), Some(4)));
+    }
+}
+
 #[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct ParameterSpec {
@@ -278,6 +308,8 @@ pub fn substitute(path: &Path, text: &str, values: &[Resolved]) -> Result<String
                     } else {
                         (i, end)
                     };
+                    // A quote already consumed by the previous token stays consumed.
+                    let a = a.max(last);
                     match values.iter().find(|v| v.name == name) {
                         Some(v) => {
                             out.push_str(&line[last..a]);

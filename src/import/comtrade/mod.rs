@@ -307,7 +307,21 @@ impl ComtradeSource {
             )
             .hint("export the part recorded at one rate"));
         }
-        let (mapped, connection, notes) = resolve(path, &cfg, map)?;
+        let (mapped, connection, mut notes) = resolve(path, &cfg, map)?;
+        // Skew (µs) shifts a channel's samples in time; the analysis treats
+        // channels as simultaneous, so say how large the angle error is.
+        for m in &mapped {
+            if let Some(i) = m.analog {
+                let skew = cfg.analogs[i].skew;
+                if skew != 0.0 && skew.is_finite() {
+                    let deg = 360.0 * cfg.line_frequency.max(0.0) * skew * 1e-6;
+                    notes.push(format!(
+                        "channel '{}' has a skew of {skew} µs, not compensated: its phase angle is off by {deg:.3}° at {} Hz",
+                        cfg.analogs[i].name, cfg.line_frequency
+                    ));
+                }
+            }
+        }
         let keys: Vec<ChannelKey> = mapped.iter().map(|m| m.key).collect();
         check_channel_set(path, &keys)?;
         let kind = if keys.contains(&ChannelKey::VPos) {
