@@ -23,21 +23,7 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
                 r.disturbance.below_pu, r.disturbance.above_pu, r.disturbance.hysteresis_pu
             )?;
             for p in &loaded.parameters {
-                writeln!(
-                    out,
-                    "  param   {:<14} = {} {} ({}; allowed {} to {}){}",
-                    p.name,
-                    p.value,
-                    p.unit,
-                    p.origin,
-                    p.range.0,
-                    p.range.1,
-                    if p.description.is_empty() {
-                        String::new()
-                    } else {
-                        format!(" – {}", p.description)
-                    }
-                )?;
+                writeln!(out, "  param   {}", param_line(p, true))?;
             }
             for c in &r.checks {
                 let what = match c {
@@ -82,20 +68,7 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
                         .join(", ")
                 )?;
                 for p in &loaded.parameters {
-                    writeln!(
-                        out,
-                        "  param   {} = {} {} (allowed {} to {}){}",
-                        p.name,
-                        p.value,
-                        p.unit,
-                        p.range.0,
-                        p.range.1,
-                        if p.description.is_empty() {
-                            String::new()
-                        } else {
-                            format!(" – {}", p.description)
-                        }
-                    )?;
+                    writeln!(out, "  param   {}", param_line(p, false))?;
                 }
                 writeln!(out)?;
             }
@@ -137,4 +110,26 @@ fn set_choices(set: &[String]) -> anyhow::Result<crate::rules::params::Choices> 
         .into_iter()
         .map(|(k, v)| (k, (v, "--set".to_string())))
         .collect())
+}
+
+/// One parameter for people: name, value, unit, (origin,) range, description.
+fn param_line(p: &crate::rules::params::Resolved, origin: bool) -> String {
+    format!(
+        "{:<14} = {} {} ({}allowed {} to {}){}",
+        p.name,
+        p.value,
+        p.unit,
+        if origin {
+            format!("{}; ", p.origin)
+        } else {
+            String::new()
+        },
+        p.range.0,
+        p.range.1,
+        if p.description.is_empty() {
+            String::new()
+        } else {
+            format!(" – {}", p.description)
+        }
+    )
 }
