@@ -1,0 +1,33 @@
+#!/usr/bin/env bash
+# Time of `holdfast check` on a plan of many tests (default 200), made from
+# copies of the sample recordings; reports wall time and peak memory.
+# Usage: bench/plan.sh [TESTS]
+set -euo pipefail
+cd "$(dirname "$0")/.."
+n=${1:-200}
+cargo build --release --quiet
+dir=$(mktemp -d)
+mkdir -p "$dir/rec"
+files=(sample-data/recordings/t0[1-9]-*.csv)
+{
+  echo "unit: { rated_voltage_kv: 0.69, rated_power_mva: 4.2, frequency_hz: 50 }"
+  echo "rules: $PWD/rules/eu-rfg-ppm-type-d-example.yaml"
+  echo "channels:"
+  echo "  time: t"
+  echo "  voltage: { a: va, b: vb, c: vc, unit: V }"
+  echo "  current: { a: ia, b: ib, c: ic, unit: A }"
+  echo "tests:"
+} > "$dir/plan.yaml"
+for i in $(seq 1 "$n"); do
+  f=${files[$(( i % ${#files[@]} ))]}
+  cp "$f" "$dir/rec/r$i.csv"
+  echo "  - { id: R$i, file: rec/r$i.csv }" >> "$dir/plan.yaml"
+done
+size=$(du -sm "$dir/rec" | cut -f1)
+if [ -x /usr/bin/time ]; then
+  /usr/bin/time -f "$n tests, ${size} MB of CSV: %e s wall, %U s user, peak RSS %M KB" \
+    target/release/holdfast check "$dir/plan.yaml" --out "$dir/out" > /dev/null || true
+else
+  time (target/release/holdfast check "$dir/plan.yaml" --out "$dir/out" > /dev/null || true)
+fi
+echo "evidence pack: $dir/out ($(ls "$dir/out/plots" | wc -l) plot files, report.html $(du -h "$dir/out/report.html" | cut -f1))"
