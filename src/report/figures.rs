@@ -49,6 +49,22 @@ fn verdicts(checks: &[&CheckResult]) -> String {
         .join(", ")
 }
 
+/// The boundary of a ride-through zone check (a table as its equivalent curve).
+fn zone_boundary(spec: &CheckSpec) -> Option<(Vec<[f64; 2]>, Bound)> {
+    match spec {
+        CheckSpec::Envelope(e) => Some((e.points.clone(), e.bound)),
+        CheckSpec::DurationTable(tb) => Some((
+            table_boundary(&tb.rows, tb.side),
+            if tb.side == Side::Below {
+                Bound::Lower
+            } else {
+                Bound::Upper
+            },
+        )),
+        _ => None,
+    }
+}
+
 /// The staircase boundary equivalent to a duration table (continuous mode).
 pub fn table_boundary(rows: &[crate::rules::spec::TableRow], side: Side) -> Vec<[f64; 2]> {
     let mut ds: Vec<f64> = rows.iter().map(|r| r.max_s).collect();
@@ -202,22 +218,15 @@ pub fn figures(inp: &FigureInput<'_>) -> Vec<Figure> {
         let Some(d) = inp.disturbances.get(k) else {
             continue;
         };
-        let (pts, bound, note) = match spec {
-            CheckSpec::Envelope(e) => (e.points.clone(), e.bound, String::new()),
-            CheckSpec::DurationTable(tb) => (
-                table_boundary(&tb.rows, tb.side),
-                if tb.side == Side::Below {
-                    Bound::Lower
-                } else {
-                    Bound::Upper
-                },
-                if tb.mode == TableMode::Cumulative {
-                    " (table as one excursion)".to_string()
-                } else {
-                    " (table as curve)".to_string()
-                },
-            ),
-            _ => continue,
+        let Some((pts, bound)) = zone_boundary(spec) else {
+            continue;
+        };
+        let note = match spec {
+            CheckSpec::DurationTable(tb) if tb.mode == TableMode::Cumulative => {
+                " (table as one excursion)"
+            }
+            CheckSpec::DurationTable(_) => " (table as curve)",
+            _ => "",
         };
         let mut abs: Vec<(f64, f64)> = pts
             .iter()
@@ -495,26 +504,16 @@ pub fn rule_figures(rules: &RuleSet) -> Vec<(String, FigureSpec)> {
     for c in &rules.checks {
         match c {
             CheckSpec::Envelope(_) | CheckSpec::DurationTable(_) => {
-                let (pts, bound, what) = match c {
-                    CheckSpec::Envelope(e) => (
-                        e.points.clone(),
-                        e.bound,
-                        format!("{:?} envelope", e.bound).to_lowercase(),
-                    ),
-                    CheckSpec::DurationTable(tb) => (
-                        table_boundary(&tb.rows, tb.side),
-                        if tb.side == Side::Below {
-                            Bound::Lower
-                        } else {
-                            Bound::Upper
-                        },
-                        format!(
-                            "duration table ({:?} {:?}), drawn as its equivalent curve",
-                            tb.side, tb.mode
-                        )
-                        .to_lowercase(),
-                    ),
-                    _ => continue,
+                let Some((pts, bound)) = zone_boundary(c) else {
+                    continue;
+                };
+                let what = match c {
+                    CheckSpec::DurationTable(tb) => format!(
+                        "duration table ({:?} {:?}), drawn as its equivalent curve",
+                        tb.side, tb.mode
+                    )
+                    .to_lowercase(),
+                    _ => format!("{:?} envelope", bound).to_lowercase(),
                 };
                 let last = pts.last().map_or(1.0, |p| p[0]);
                 let x1 = (last * 1.25).max(last + 0.2);
