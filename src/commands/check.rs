@@ -96,7 +96,16 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
                 )
                 .into());
             }
-            if args.ratings.rated_kv.is_some() || !args.map.map.is_empty() {
+            let a = &args.ratings;
+            let m = &args.map;
+            if a.rated_kv.is_some()
+                || a.rated_mva.is_some()
+                || a.frequency.is_some()
+                || !m.map.is_empty()
+                || m.voltage_unit.is_some()
+                || m.current_unit.is_some()
+                || m.voltage_connection.is_some()
+            {
                 return Err(UsageError(
                     "rating and --map flags belong to the one-off form (--rules); a plan has its own unit and channels blocks"
                         .into(),
