@@ -185,6 +185,14 @@ fn envelope_without_disturbance_is_not_applicable() {
     let c = one(&s, &rules(LVRT));
     assert_eq!(c.verdict, Verdict::NotApplicable);
     assert_eq!(c.disturbance, None);
+    // The test is no evidence, and the outcome says so.
+    let r = rules(LVRT);
+    let out = engine::evaluate(&s.series(), &r, &detection_settings(&r, 50.0), None);
+    assert!(
+        out.notes.iter().any(|n| n.contains("no evidence")),
+        "{:?}",
+        out.notes
+    );
 }
 
 #[test]

@@ -76,5 +76,18 @@ pub fn render(results: &Results, tty: bool) -> String {
             out.push_str(&format!("  {} {}: {}\n", c.id, c.verdict.name(), c.detail));
         }
     }
+    let noted: Vec<_> = results
+        .tests
+        .iter()
+        .filter(|t| !t.notes.is_empty())
+        .collect();
+    if !noted.is_empty() {
+        out.push_str("\nNotes:\n");
+        for t in noted {
+            for n in &t.notes {
+                out.push_str(&format!("  {}: {n}\n", t.id));
+            }
+        }
+    }
     out
 }

@@ -320,6 +320,12 @@ pub fn evaluate(
             );
         }
     }
+    if !checks.is_empty() && checks.iter().all(|c| c.verdict == Verdict::NotApplicable) {
+        notes.push(
+            "no requirement applied to this recording (every check is not applicable): it is no evidence of ride-through behaviour"
+                .into(),
+        );
+    }
     Outcome {
         verdict: Verdict::combine(checks.iter().map(|c| c.verdict)),
         disturbances,
