@@ -198,3 +198,25 @@ fn decimal_comma_semicolon_bom_crlf_and_iso_time_are_read() {
     assert!((v["recording"]["sample_rate_hz"].as_f64().unwrap() - 10_000.0).abs() < 1e-6);
     assert_eq!(v["disturbances"].as_array().unwrap().len(), 0);
 }
+
+#[test]
+fn iso_timestamps_with_a_decimal_comma_are_read() {
+    // ISO 8601 allows a comma as the decimal sign of the seconds.
+    let dir = tempfile::tempdir().unwrap();
+    let p = write(
+        &dir,
+        "isocomma.csv",
+        b"t;va;vb;vc\n2026-03-14T10:00:00,000;1;2;3\n2026-03-14T10:00:00,001;1;2;3\n2026-03-14T10:00:00,002;1;2;3\n",
+    );
+    let out = Command::cargo_bin("holdfast")
+        .unwrap()
+        .args(["inspect", "--voltage-unit", "pu", "--json"])
+        .arg(&p)
+        .assert()
+        .success()
+        .get_output()
+        .stdout
+        .clone();
+    let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+    assert!((v["recording"]["sample_rate_hz"].as_f64().unwrap() - 1000.0).abs() < 1e-6);
+}

@@ -195,6 +195,18 @@ fn count_outside_quotes(line: &[u8], c: u8) -> usize {
 
 fn parse_timestamp(s: &str) -> Option<DateTime<FixedOffset>> {
     let s = s.trim();
+    // ISO 8601 allows a decimal comma in the seconds (10:00:00,25).
+    let owned;
+    let s = match s.rfind(',') {
+        Some(i)
+            if s[..i].ends_with(|c: char| c.is_ascii_digit())
+                && s[i + 1..].starts_with(|c: char| c.is_ascii_digit()) =>
+        {
+            owned = format!("{}.{}", &s[..i], &s[i + 1..]);
+            owned.as_str()
+        }
+        _ => s,
+    };
     if let Ok(t) = DateTime::parse_from_rfc3339(s) {
         return Some(t);
     }
@@ -215,7 +227,6 @@ fn is_blank(line: &[u8]) -> bool {
     line.iter().all(|b| b.is_ascii_whitespace())
 }
 
-/// Parses one field as a number; returns the value and the end of the field.
 /// Exact powers of ten representable in an f64.
 const POW10: [f64; 23] = [
     1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
@@ -272,6 +283,7 @@ fn fast_decimal(b: &[u8]) -> Option<(f64, usize)> {
     Some((if neg { -v } else { v }, i))
 }
 
+/// Parses one field as a number; returns the value and the end of the field.
 #[inline]
 fn number_field(line: &[u8], start: usize, layout: &Layout) -> Result<(f64, usize), ()> {
     let delim = layout.delim;

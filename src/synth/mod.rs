@@ -420,8 +420,15 @@ pub fn write_csv(spec: &SynthSpec, out: &mut dyn Write) -> std::io::Result<u64> 
             let _ = write!(line, "{d}{}", vals[6]);
         }
         if spec.decimal_comma {
-            // The delimiter is ';' or tab here, so every '.' is a decimal point.
-            line = line.replace('.', ",");
+            // The delimiter is ';' or tab here, so every '.' of a number is a
+            // decimal point; ISO timestamps keep theirs.
+            let from = match spec.time_format {
+                TimeFormat::Seconds => 0,
+                TimeFormat::Iso => line.find(d).unwrap_or(line.len()),
+            };
+            let tail = line[from..].replace('.', ",");
+            line.truncate(from);
+            line.push_str(&tail);
         }
         line.push('\n');
         out.write_all(line.as_bytes())
