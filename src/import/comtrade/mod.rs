@@ -124,7 +124,9 @@ fn split_cff(
         offset += n as u64;
         let text = String::from_utf8_lossy(&line);
         let t = text.trim();
-        if t.len() >= CFF_MARK.len() && t[..CFF_MARK.len()].eq_ignore_ascii_case(CFF_MARK) {
+        // Compare bytes: the line may hold anything (binary data, broken UTF-8).
+        let mark = CFF_MARK.len();
+        if t.len() >= mark && t.as_bytes()[..mark].eq_ignore_ascii_case(CFF_MARK.as_bytes()) {
             let rest = t[CFF_MARK.len()..]
                 .trim()
                 .trim_end_matches('-')
