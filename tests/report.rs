@@ -335,4 +335,32 @@ fn report_renders_in_a_headless_browser() {
         dark > 1000,
         "hardly any text or lines drawn ({dark} dark pixels)"
     );
+    // Printed (A4 by the page's CSS): each test on one page, plus the
+    // overview and the traceability block.
+    let (dir, results) = sample_pack();
+    let pdf = dir.path().join("report.pdf");
+    let printed = std::process::Command::new(browser().unwrap())
+        .args([
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--no-pdf-header-footer",
+        ])
+        .arg(format!("--print-to-pdf={}", pdf.display()))
+        .arg(&url)
+        .output()
+        .unwrap();
+    assert!(
+        pdf.exists(),
+        "no PDF: {}",
+        String::from_utf8_lossy(&printed.stderr)
+    );
+    let bytes = std::fs::read(&pdf).unwrap();
+    let text = String::from_utf8_lossy(&bytes);
+    let pages = text.matches("/Type /Page").count() - text.matches("/Type /Pages").count();
+    let tests = results["tests"].as_array().unwrap().len();
+    assert!(
+        pages >= tests && pages <= tests + 3,
+        "{pages} printed pages for {tests} tests"
+    );
 }
