@@ -98,16 +98,15 @@ pub fn evaluate(
     if let Some(want) = e.residual_pu {
         match residual(d) {
             Some(got) => {
-                let m = e.residual_tolerance_pu - (got - want).abs();
-                let s = format!(
-                    "residual {got:.3} pu (planned {want:.3} ± {})",
-                    e.residual_tolerance_pu
+                let m = compare(
+                    "residual",
+                    "pu",
+                    got,
+                    want,
+                    e.residual_tolerance_pu,
+                    &mut ok,
+                    &mut bad,
                 );
-                if m >= 0.0 {
-                    ok.push(s)
-                } else {
-                    bad.push(s)
-                }
                 worst = Some((got, want, m, d.extreme_at_s));
             }
             None => bad.push("residual voltage cannot be measured (no settled part)".into()),
@@ -116,16 +115,15 @@ pub fn evaluate(
     if let Some(want) = e.duration_s {
         match d.duration_s() {
             Some(got) => {
-                let m = e.duration_tolerance_s - (got - want).abs();
-                let s = format!(
-                    "duration {got:.3} s (planned {want:.3} ± {})",
-                    e.duration_tolerance_s
+                let m = compare(
+                    "duration",
+                    "s",
+                    got,
+                    want,
+                    e.duration_tolerance_s,
+                    &mut ok,
+                    &mut bad,
                 );
-                if m >= 0.0 {
-                    ok.push(s)
-                } else {
-                    bad.push(s)
-                }
                 if worst.is_none() {
                     r.unit = "s".into();
                     worst = Some((got, want, m, d.start_s));
@@ -186,4 +184,25 @@ pub fn evaluate(
             ),
         )
     }
+}
+
+/// Compares a measured with a planned value; files the sentence under `ok`
+/// or `bad` and returns the margin (tolerance minus the difference).
+fn compare(
+    what: &str,
+    unit: &str,
+    got: f64,
+    want: f64,
+    tolerance: f64,
+    ok: &mut Vec<String>,
+    bad: &mut Vec<String>,
+) -> f64 {
+    let m = tolerance - (got - want).abs();
+    let s = format!("{what} {got:.3} {unit} (planned {want:.3} ± {tolerance})");
+    if m >= 0.0 {
+        ok.push(s)
+    } else {
+        bad.push(s)
+    }
+    m
 }
