@@ -2,7 +2,7 @@
 
 use crate::error::UsageError;
 use crate::import::{ChannelMap, ImportOptions};
-use crate::model::{ChannelKey, Connection, CurrentUnit, Ratings, VoltageUnit};
+use crate::model::{ChannelKey, Connection, CurrentUnit, PhaseOrder, Ratings, VoltageUnit};
 use clap::{Args, Parser, Subcommand};
 use std::path::PathBuf;
 
@@ -152,7 +152,7 @@ impl RatingArgs {
 #[derive(Args, Debug, Clone, Default)]
 pub struct MapArgs {
     /// Map a channel to a column: KEY=COLUMN, repeatable. Keys: time, va, vb, vc, ia, ib, ic,
-    /// v_pos, p, q, ip, iq, status. Columns named t/time, va, vb, vc, ia, ib, ic (any case)
+    /// v_pos, p, q, ip, iq, status, vn (residual voltage va+vb+vc with phase-to-phase voltages). Columns named t/time, va, vb, vc, ia, ib, ic (any case)
     /// are found without it.
     #[arg(long = "map", value_name = "KEY=COLUMN")]
     pub map: Vec<String>,
@@ -165,6 +165,10 @@ pub struct MapArgs {
     /// phase_to_neutral (default) or phase_to_phase (va, vb, vc then hold v_ab, v_bc, v_ca).
     #[arg(long, value_name = "CONNECTION")]
     pub voltage_connection: Option<String>,
+    /// Phase rotation of the recorded channels: abc (default) or acb (b and c are swapped
+    /// for voltages and currents before the analysis).
+    #[arg(long, value_enum, value_name = "ORDER")]
+    pub phase_order: Option<PhaseOrder>,
     /// Largest accepted deviation of a sample step from the nominal step, as a fraction.
     #[arg(long, value_name = "FRACTION", default_value_t = 0.10)]
     pub step_tolerance: f64,
@@ -213,6 +217,7 @@ impl MapArgs {
                 ))
             })?);
         }
+        m.phase_order = self.phase_order;
         Ok(m)
     }
 
@@ -331,6 +336,14 @@ pub struct SynthArgs {
     /// The unit trips (current and status to zero) at this time, s.
     #[arg(long)]
     pub trip_at: Option<f64>,
+    /// Voltage profile instead of one fault: TIME:PU,... — from each TIME (s) every phase is at
+    /// PU; the last step is the recovery (overrides --fault-start, --fault-duration, --residual,
+    /// --recovery), e.g. 1.0:0.2,1.25:0.75,1.4:1.0 or two faults 1.0:0.3,1.2:1.0,1.5:0.3,1.7:1.0.
+    #[arg(long, value_name = "LIST")]
+    pub steps: Option<String>,
+    /// Phase rotation written to the file: abc, or acb (the b and c columns hold phases c and b).
+    #[arg(long, value_enum, default_value = "abc", value_name = "ORDER")]
+    pub phase_order: PhaseOrder,
     /// Momentary cessation: current blocked from..to, s, e.g. 1.0,1.2.
     #[arg(long, value_name = "FROM,TO")]
     pub block: Option<String>,

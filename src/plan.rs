@@ -24,6 +24,10 @@ pub struct Plan {
     /// Values of the rule set's parameters (within their published ranges).
     #[serde(default)]
     pub parameters: BTreeMap<String, f64>,
+    /// Phase rotation of every recording's channels: `abc` (default) or
+    /// `acb` (b and c are swapped for voltages and currents).
+    #[serde(default)]
+    pub phase_order: Option<crate::model::PhaseOrder>,
     pub tests: Vec<TestSpec>,
 }
 
@@ -103,6 +107,9 @@ pub struct TestSpec {
     /// Free-text description.
     #[serde(default)]
     pub description: Option<String>,
+    /// Phase rotation of this recording's channels (over the plan's).
+    #[serde(default)]
+    pub phase_order: Option<crate::model::PhaseOrder>,
 }
 
 impl ChannelsSpec {
@@ -314,10 +321,13 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
             }
         };
         match defaults.merged(t.channels.as_ref()).to_map() {
-            Ok(map) => tests.push(ResolvedTest {
+            Ok(mut map) => tests.push(ResolvedTest {
+                map: {
+                    map.phase_order = t.phase_order.or(plan.phase_order);
+                    map
+                },
                 id: t.id.clone(),
                 file: dir.join(&t.file),
-                map,
                 expect: t.expect.clone(),
                 rules,
                 description: t.description.clone(),

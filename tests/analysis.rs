@@ -4,7 +4,9 @@
 use holdfast::analysis::phasor::SlidingDft;
 use holdfast::analysis::sequence;
 use holdfast::analysis::{Analysed, AnalysisSettings, Analyzer, Quantity};
-use holdfast::model::{Block, ChannelKey, Connection, FrameSink, RecordingInfo, N_KEYS};
+use holdfast::model::{
+    Block, ChannelKey, Connection, FrameSink, PhaseOrder, RecordingInfo, N_KEYS,
+};
 use num_complex::Complex64;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -21,17 +23,37 @@ fn analyse_memory(cols: &[Vec<f64>], fs: f64, f_nom: f64) -> Analysed {
         ChannelKey::Ib,
         ChannelKey::Ic,
     ];
-    let keys = &keys[..cols.len()];
-    let info = RecordingInfo::in_memory(keys, fs, Connection::PhaseToNeutral);
+    analyse_keys(
+        &keys[..cols.len()],
+        cols,
+        fs,
+        f_nom,
+        Connection::PhaseToNeutral,
+        PhaseOrder::Abc,
+    )
+    .expect("analysis")
+}
+
+/// Analyses per-unit columns mapped to `keys`, fed in uneven blocks as an
+/// importer does.
+fn analyse_keys(
+    keys: &[ChannelKey],
+    cols: &[Vec<f64>],
+    fs: f64,
+    f_nom: f64,
+    connection: Connection,
+    phase_order: PhaseOrder,
+) -> Result<Analysed, holdfast::error::InputError> {
+    let info = RecordingInfo::in_memory(keys, fs, connection);
     let settings = AnalysisSettings {
         ratings: None,
         frequency_hz: f_nom,
         points_per_cycle: 64,
+        phase_order,
     };
     let mut a = Analyzer::new(&info, &settings).expect("analyser");
     let n = cols[0].len();
     let time: Vec<f64> = (0..n).map(|i| i as f64 / fs).collect();
-    // Feed in uneven blocks, as an importer does.
     let mut from = 0;
     let mut size = 1000;
     while from < n {
@@ -250,6 +272,7 @@ fn first_order_rise_time_is_tau_ln9() {
                 ratings: None,
                 frequency_hz: 50.0,
                 points_per_cycle: 64,
+                phase_order: Default::default(),
             },
         )
         .unwrap();
@@ -329,4 +352,295 @@ fn inductive_negative_sequence_current_gives_negative_iq2() {
         "{:?}",
         &iq2[..3]
     );
+}
+
+// ------------------------------------------- decisions A.2, A.3, A.4, D.14
+
+/// Phase phasors `a, b, c` of magnitude `m` rotating A-B-C (or A-C-B).
+fn set(m: [f64; 3], acb: bool, f: f64, fs: f64, n: usize) -> Vec<Vec<f64>> {
+    let s = if acb { -1.0 } else { 1.0 };
+    (0..3)
+        .map(|k| {
+            wave(
+                Complex64::from_polar(m[k], -s * 2.0 * PI * k as f64 / 3.0),
+                f,
+                fs,
+                n,
+            )
+        })
+        .collect()
+}
+
+#[test]
+fn acb_rotation_is_refused_unless_declared() {
+    // Decision A.2. A balanced set rotating A-C-B is, by Fortescue's
+    // definition, pure negative sequence: V1 = 0, V2 = 1 pu (the a-operator
+    // maps b → a·b = a's angle only for A-B-C rotation).
+    let (fs, f) = (10_000.0, 50.0);
+    let mut cols = set([1.0; 3], true, f, fs, 5_000);
+    // Currents in phase with the voltages: 0.8 pu generated active power.
+    for k in 0..3 {
+        cols.push(cols[k].iter().map(|x| 0.8 * x).collect());
+    }
+    let keys = [
+        ChannelKey::Va,
+        ChannelKey::Vb,
+        ChannelKey::Vc,
+        ChannelKey::Ia,
+        ChannelKey::Ib,
+        ChannelKey::Ic,
+    ];
+    let e = match analyse_keys(
+        &keys,
+        &cols,
+        fs,
+        f,
+        Connection::PhaseToNeutral,
+        PhaseOrder::Abc,
+    ) {
+        Err(e) => e,
+        Ok(_) => panic!("A-C-B data must be refused"),
+    };
+    assert!(e.message.contains("A-C-B"), "{}", e.message);
+    assert!(e.message.contains("|V2|/|V1|"), "{}", e.message);
+    // Declared: b and c swapped, so V1 = 1 pu, V2 = 0 and P = +0.8 pu.
+    let a = analyse_keys(
+        &keys,
+        &cols,
+        fs,
+        f,
+        Connection::PhaseToNeutral,
+        PhaseOrder::Acb,
+    )
+    .expect("declared A-C-B");
+    let v1 = a.series.get(Quantity::V1).unwrap();
+    let v2 = a.series.get(Quantity::V2).unwrap();
+    let p = a.series.get(Quantity::P).unwrap();
+    let last = v1.len() - 1;
+    assert!((v1[last] - 1.0).abs() < 1e-9 && v2[last] < 1e-9);
+    assert!((p[last] - 0.8).abs() < 1e-9, "{}", p[last]);
+    assert!(a.info.notes.iter().any(|n| n.contains("acb")));
+    // Declaring A-C-B for an A-B-C recording is refused too.
+    let abc = set([1.0; 3], false, f, fs, 5_000);
+    let e = analyse_keys(
+        &keys[..3],
+        &abc,
+        fs,
+        f,
+        Connection::PhaseToNeutral,
+        PhaseOrder::Acb,
+    );
+    assert!(e.is_err_and(|e| e.message.contains("rotates A-B-C")));
+    // Phase-to-phase channels: swapping b and c maps (ab, bc, ca) to
+    // (−ca, −bc, −ab); the result equals the A-B-C analysis.
+    let line = |c: &[Vec<f64>]| -> Vec<Vec<f64>> {
+        (0..3)
+            .map(|k| {
+                c[k].iter()
+                    .zip(&c[(k + 1) % 3])
+                    .map(|(x, y)| (x - y) / 3f64.sqrt())
+                    .collect()
+            })
+            .collect()
+    };
+    let acb_line = line(&set([0.5, 1.0, 1.0], true, f, fs, 5_000));
+    let abc_line = line(&set([0.5, 1.0, 1.0], false, f, fs, 5_000));
+    let x = analyse_keys(
+        &keys[..3],
+        &acb_line,
+        fs,
+        f,
+        Connection::PhaseToPhase,
+        PhaseOrder::Acb,
+    )
+    .unwrap();
+    let y = analyse_keys(
+        &keys[..3],
+        &abc_line,
+        fs,
+        f,
+        Connection::PhaseToPhase,
+        PhaseOrder::Abc,
+    )
+    .unwrap();
+    for q in [
+        Quantity::V1,
+        Quantity::V2,
+        Quantity::Vab,
+        Quantity::Vbc,
+        Quantity::Vca,
+    ] {
+        let (a, b) = (x.series.get(q).unwrap(), y.series.get(q).unwrap());
+        assert!((a[a.len() - 1] - b[b.len() - 1]).abs() < 1e-9, "{q:?}");
+    }
+}
+
+#[test]
+fn non_finite_samples_are_refused_with_the_channel() {
+    // Decision A.3: an infinite value (e.g. from COMTRADE scaling) stops the
+    // analysis with the channel and time named.
+    let (fs, f) = (5_000.0, 50.0);
+    let mut cols = balanced(1.0, f, fs, 2_000);
+    cols[1][700] = f64::INFINITY;
+    let keys = [ChannelKey::Va, ChannelKey::Vb, ChannelKey::Vc];
+    let e = match analyse_keys(
+        &keys,
+        &cols,
+        fs,
+        f,
+        Connection::PhaseToNeutral,
+        PhaseOrder::Abc,
+    ) {
+        Err(e) => e,
+        Ok(_) => panic!("must be refused"),
+    };
+    assert!(
+        e.message.contains("vb") && e.message.contains("0.140000"),
+        "{}",
+        e.message
+    );
+    // Fewer samples than one window (100 at 5 kHz): no analysed point.
+    let short: Vec<Vec<f64>> = balanced(1.0, f, fs, 60);
+    let a = analyse_keys(
+        &keys,
+        &short,
+        fs,
+        f,
+        Connection::PhaseToNeutral,
+        PhaseOrder::Abc,
+    )
+    .unwrap();
+    assert!(a.series.is_empty());
+}
+
+#[test]
+fn two_phase_to_phase_voltages_give_the_third() {
+    // Decision A.4: v_ab + v_bc + v_ca = 0, so two suffice. A single-phase
+    // dip (a at 0.4 pu) recorded as v_ab, v_bc only analyses exactly like
+    // the three phase-to-phase voltages.
+    let (fs, f) = (10_000.0, 50.0);
+    let ph = set([0.4, 1.0, 1.0], false, f, fs, 4_000);
+    let line: Vec<Vec<f64>> = (0..3)
+        .map(|k| {
+            ph[k]
+                .iter()
+                .zip(&ph[(k + 1) % 3])
+                .map(|(x, y)| (x - y) / 3f64.sqrt())
+                .collect()
+        })
+        .collect();
+    let keys = [ChannelKey::Va, ChannelKey::Vb, ChannelKey::Vc];
+    let all = analyse_keys(
+        &keys,
+        &line,
+        fs,
+        f,
+        Connection::PhaseToPhase,
+        PhaseOrder::Abc,
+    )
+    .unwrap();
+    let two = analyse_keys(
+        &keys[..2],
+        &line[..2],
+        fs,
+        f,
+        Connection::PhaseToPhase,
+        PhaseOrder::Abc,
+    )
+    .unwrap();
+    assert!(two.info.notes.iter().any(|n| n.contains("derived")));
+    for q in [Quantity::V1, Quantity::V2, Quantity::Vca] {
+        let (a, b) = (all.series.get(q).unwrap(), two.series.get(q).unwrap());
+        let d = a
+            .iter()
+            .zip(b)
+            .map(|(x, y)| (x - y).abs())
+            .fold(0.0, f64::max);
+        assert!(d < 1e-9, "{q:?}: {d}");
+    }
+    // Without a residual channel, V0 is not observed: no V0 column, and the
+    // phase-to-neutral voltages cannot be judged (the rule engine says so).
+    assert!(!all.series.has(Quantity::V0));
+    // With the residual vn = va + vb + vc (a broken-delta winding), the
+    // zero sequence V0 = vn/3 is observed and Va = V0 + V1 + V2 gives the
+    // phase-to-neutral magnitudes back: a at 0.4 pu, b and c at 1 pu.
+    let vn: Vec<f64> = (0..ph[0].len())
+        .map(|i| ph[0][i] + ph[1][i] + ph[2][i])
+        .collect();
+    let mut cols = line.clone();
+    cols.push(vn);
+    let keys4 = [
+        ChannelKey::Va,
+        ChannelKey::Vb,
+        ChannelKey::Vc,
+        ChannelKey::Vn,
+    ];
+    let with = analyse_keys(
+        &keys4,
+        &cols,
+        fs,
+        f,
+        Connection::PhaseToPhase,
+        PhaseOrder::Abc,
+    )
+    .unwrap();
+    let va = with.series.get(Quantity::Va).unwrap();
+    let vb = with.series.get(Quantity::Vb).unwrap();
+    assert!(with.series.has(Quantity::V0));
+    assert!(
+        (va[va.len() - 1] - 0.4).abs() < 1e-9,
+        "{}",
+        va[va.len() - 1]
+    );
+    assert!((vb[vb.len() - 1] - 1.0).abs() < 1e-9);
+}
+
+#[test]
+fn inception_and_clearance_are_found_on_the_waveform() {
+    // Decision D.14. A dip of all phases to 0.3 pu from t_i to t_c, at an
+    // arbitrary point on wave, with 0.5 % noise. x[n] − x[n−N] is zero for a
+    // steady sinusoid and jumps at the inception and at the clearance, so
+    // both are found within one output step (1/64 cycle) plus one sample.
+    // 60 Hz at 10 kHz also checks the fractional window (N = 167 ≠ 166.7).
+    use holdfast::analysis::events::{detect_disturbances, DetectionSettings};
+    for (f, fs, ti, tc) in [
+        (50.0, 10_000.0, 0.3037, 0.5537),
+        (60.0, 10_000.0, 0.2911, 0.3911),
+    ] {
+        let n = (0.9 * fs) as usize;
+        let mut rng = ChaCha8Rng::seed_from_u64(7);
+        let cols: Vec<Vec<f64>> = (0..3)
+            .map(|k| {
+                (0..n)
+                    .map(|m| {
+                        let t = m as f64 / fs;
+                        let mag = if (ti..tc).contains(&t) { 0.3 } else { 1.0 };
+                        let ang = 2.0 * PI * f * t - 2.0 * PI * k as f64 / 3.0;
+                        SQRT_2 * mag * ang.cos() + 0.005 * (rng.random::<f64>() - 0.5)
+                    })
+                    .collect()
+            })
+            .collect();
+        let keys = [ChannelKey::Va, ChannelKey::Vb, ChannelKey::Vc];
+        let a = analyse_keys(
+            &keys,
+            &cols,
+            fs,
+            f,
+            Connection::PhaseToNeutral,
+            PhaseOrder::Abc,
+        )
+        .unwrap();
+        let det = DetectionSettings::defaults(f);
+        let d = detect_disturbances(&a.series, &det).unwrap();
+        assert_eq!(d.len(), 1, "{f} Hz");
+        let tol = 1.0 / (64.0 * f) + 2.0 / fs;
+        let inc = d[0].inception_s.expect("inception");
+        let clr = d[0].clearance_s.expect("clearance");
+        assert!((inc - ti).abs() <= tol, "{f} Hz: inception {inc} vs {ti}");
+        assert!((clr - tc).abs() <= tol, "{f} Hz: clearance {clr} vs {tc}");
+        // The phasor-level start lags the inception (one-cycle window).
+        assert!(d[0].start_s >= inc);
+        assert!((d[0].fault_duration_s().unwrap() - (tc - ti)).abs() <= 2.0 * tol);
+    }
 }

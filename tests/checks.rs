@@ -7,7 +7,7 @@
 use holdfast::analysis::events::DetectionSettings;
 use holdfast::analysis::{Quantity, Series};
 use holdfast::rules::engine::{self, detection_settings};
-use holdfast::rules::result::{CheckResult, Verdict};
+use holdfast::rules::result::{CheckResult, Reason, Verdict};
 use holdfast::rules::spec::RuleSet;
 
 const DT: f64 = 0.001;
@@ -21,6 +21,8 @@ struct Sig {
     iq: Signal,
     status: Option<Signal>,
     v2: Option<(Signal, Signal)>,
+    /// Waveform deviation `|x[n] − x[n−N]|` (marks inception and clearance).
+    dev: Option<Signal>,
     currents: bool,
 }
 
@@ -33,6 +35,7 @@ impl Sig {
             iq: Box::new(|_| 0.0),
             status: None,
             v2: None,
+            dev: None,
             currents: true,
         }
     }
@@ -55,6 +58,9 @@ impl Sig {
         if let Some(s) = &self.status {
             cols.push((Quantity::Status, t.iter().map(|x| s(*x)).collect()));
         }
+        if let Some(d) = &self.dev {
+            cols.push((Quantity::WaveDeviation, t.iter().map(|x| d(*x)).collect()));
+        }
         if let Some((v2, iq2)) = &self.v2 {
             cols.push((Quantity::V2, t.iter().map(|x| v2(*x)).collect()));
             cols.push((Quantity::Iq2, t.iter().map(|x| iq2(*x)).collect()));
@@ -75,9 +81,26 @@ fn rules_with(checks: &str, disturbance: &str) -> RuleSet {
     r
 }
 
+/// The rule set's checks (without the connection check every recording gets).
 fn run(sig: &Sig, r: &RuleSet) -> Vec<CheckResult> {
+    run_all(sig, r)
+        .into_iter()
+        .filter(|c| c.id != "connection")
+        .collect()
+}
+
+/// Every check, the connection check included.
+fn run_all(sig: &Sig, r: &RuleSet) -> Vec<CheckResult> {
     let det: DetectionSettings = detection_settings(r, 50.0);
     engine::evaluate(&sig.series(), r, &det, None).checks
+}
+
+/// The connection check of a recording.
+fn connection(sig: &Sig, r: &RuleSet) -> CheckResult {
+    run_all(sig, r)
+        .into_iter()
+        .find(|c| c.id == "connection")
+        .expect("every recording has a connection check")
 }
 
 fn one(sig: &Sig, r: &RuleSet) -> CheckResult {
@@ -112,15 +135,23 @@ fn close(a: Option<f64>, b: f64, tol: f64) -> bool {
 
 #[test]
 fn envelope_inside_no_trip_passes_with_smallest_margin() {
-    // 0.3 pu for 0.3 s: C(τ) = 0 up to 0.15 s, then 0.85·(τ − 0.15)/1.35, so
-    // C(0.3) = 0.094 < 0.3 (inside); after recovery V = 1 against at most
-    // 0.85: the smallest margin is 1 − 0.85 = 0.15 pu (from τ = 1.5 s on).
+    // 0.3 pu for 0.3 s (1.0..1.3 s): C(τ) = 0 up to 0.15 s, then
+    // 0.85·(τ − 0.15)/1.35. The margin is the smallest headroom over the
+    // disturbance itself (start to end, decision B.6), not over the
+    // recovered tail: at the last dip sample, τ = 0.299 s,
+    // 0.3 − 0.85·0.149/1.35 = 0.206185 pu.
     let mut s = Sig::new(dip(0.3, 0.3));
     s.status = status_open_at(99.0);
     let c = one(&s, &rules(LVRT));
     assert_eq!(c.verdict, Verdict::Pass, "{}", c.detail);
-    assert!(close(c.margin, 0.15, 1e-9), "{:?}", c.margin);
-    assert!(c.at_s.unwrap() >= 2.5 - 1e-9);
+    assert_eq!(c.reason, Some(Reason::NoTrip));
+    assert!(
+        close(c.margin, 0.3 - 0.85 * 0.149 / 1.35, 1e-9),
+        "{:?}",
+        c.margin
+    );
+    assert!(close(c.at_s, 1.299, 1e-9), "{:?}", c.at_s);
+    assert!(close(c.measured, 0.3, 1e-12));
     assert_eq!(c.left_zone_s, None);
 }
 
@@ -151,24 +182,50 @@ fn envelope_trip_after_leaving_zone_is_permitted() {
 
 #[test]
 fn envelope_left_zone_without_trip_passes_with_note() {
+    // 0.3 pu for 1 s leaves the zone at 1.627 s (see above) and the unit
+    // stays connected: pass, reason rode_through_beyond_zone, and no margin
+    // (a margin would have no meaning, decision B.6).
     let mut s = Sig::new(dip(0.3, 1.0));
     s.status = status_open_at(99.0);
     let c = one(&s, &rules(LVRT));
     assert_eq!(c.verdict, Verdict::Pass);
+    assert_eq!(c.reason, Some(Reason::RodeThroughBeyondZone));
     assert!(
         c.detail.contains("left the ride-through zone"),
         "{}",
         c.detail
     );
-    assert!(c.margin.unwrap() < 0.0);
+    assert_eq!(c.margin, None);
+    assert!(close(c.left_zone_s, 1.62647, 1e-3), "{:?}", c.left_zone_s);
 }
 
 #[test]
-fn envelope_fault_too_short_is_inconclusive() {
-    // 30 ms dip: less than two 20 ms cycles, depth not resolvable.
+fn short_fault_is_decided_unless_its_depth_matters() {
+    // Decision A.5. A 30 ms dip is less than two 20 ms cycles at phasor
+    // level, so its true depth is unknown (anything from 0 pu to the
+    // measured 0.2 pu).
+    // (a) No trip: the unit rode through whatever the depth: pass, no_trip,
+    //     margin null.
     let mut s = Sig::new(dip(0.2, 0.03));
     s.status = status_open_at(99.0);
-    assert_eq!(one(&s, &rules(LVRT)).verdict, Verdict::Inconclusive);
+    let c = one(&s, &rules(LVRT));
+    assert_eq!(c.verdict, Verdict::Pass, "{}", c.detail);
+    assert_eq!(c.reason, Some(Reason::NoTrip));
+    assert_eq!(c.margin, None);
+    // (b) Trip at 1.05 s (τ = 0.05 s): the LVRT floor is 0 pu up to 0.15 s,
+    //     so even a 0 pu fault stays inside (0 ≥ 0): fail for every depth.
+    s.status = status_open_at(1.05);
+    let c = one(&s, &rules(LVRT));
+    assert_eq!(c.verdict, Verdict::Fail, "{}", c.detail);
+    assert_eq!(c.reason, Some(Reason::TripInsideZone));
+    // (c) A floor of 0.1 pu for 0.15 s: as measured (0.2 pu) the trip at
+    //     1.05 s is inside the zone (fail); a true depth below 0.1 pu would
+    //     have left the zone at the start (permitted trip): undecidable.
+    let floor = "  - { id: lvrt, type: envelope, bound: lower, points: [[0, 0.1], [0.15, 0.1], [1.5, 0.85]] }\n";
+    let c = one(&s, &rules(floor));
+    assert_eq!(c.verdict, Verdict::Inconclusive, "{}", c.detail);
+    assert_eq!(c.reason, Some(Reason::DepthUnresolved));
+    assert_eq!((c.measured, c.margin), (None, None));
 }
 
 #[test]
@@ -389,9 +446,59 @@ fn reactive_current_full_dead_band_and_instantaneous_follow() {
     let c = one(&s, &rules(&full));
     assert!(close(c.required_pu, 0.6, 1e-9));
     assert_eq!(c.verdict, Verdict::Pass);
-    // Voltage 0.5 pu for 150 ms then 0.3 pu for 150 ms; the unit follows
-    // the voltage: 0.8 pu then min(1.2, 1.0) = 1.0 pu.
+    // A two-step fault (decision D.12): 0.7 pu for 150 ms, then 0.3 pu for
+    // 150 ms. Offset dead band: 2·(0.3 − 0.1) = 0.4 pu, then
+    // min(2·(0.7 − 0.1), 1.0) = 1.0 pu (limited). The unit follows each
+    // level with τ = 5 ms.
     let v = |t: f64| {
+        if (1.0..1.15).contains(&t) {
+            0.7
+        } else if (1.15..1.3).contains(&t) {
+            0.3
+        } else {
+            1.0
+        }
+    };
+    let follower = |low: f64, high: f64| -> Box<dyn Fn(f64) -> f64> {
+        let a = first_order(low, 0.005, 0.3);
+        Box::new(move |t| {
+            if (1.15..1.3).contains(&t) {
+                low + (high - low) * (1.0 - (-(t - 1.15) / 0.005).exp())
+            } else {
+                a(t)
+            }
+        })
+    };
+    let mut s = Sig::new(v);
+    s.iq = follower(0.4, 1.0);
+    // Settled requirement, by segments: the 0.4 pu step (> 0.05 pu) holds
+    // for more than the 60 ms settling time, so each segment has its own
+    // requirement: 0.4 then 1.0 pu. The second segment starts at 1.15 s;
+    // its band [0.9, 1.2] is entered when 0.4 + 0.6·(1 − e^(−t/τ)) = 0.9,
+    // t = τ·ln(0.6/0.1) = τ·ln 6 = 8.96 ms after 1.15 s.
+    let c = one(&s, &rules(IQ));
+    assert_eq!(c.verdict, Verdict::Pass, "{}", c.detail);
+    assert_eq!(c.segments.len(), 2, "{:?}", c.segments);
+    assert!(close(Some(c.segments[0].required_pu), 0.4, 1e-9));
+    assert!(close(Some(c.segments[1].required_pu), 1.0, 1e-9));
+    assert!(close(Some(c.segments[1].start_s), 1.15, 1e-9));
+    assert!(
+        close(c.segments[1].settling_time_s, 0.005 * 6f64.ln(), DT),
+        "{:?}",
+        c.segments[1].settling_time_s
+    );
+    assert_eq!(c.limited, Some(true));
+    // Following the voltage: the one-cycle average of the requirement moves
+    // by 0.6 pu, more than the band's width 0.3 pu, so the settling clock
+    // restarts at the step and the unit that follows passes.
+    let inst = IQ.replace("limit_pu: 1.0", "limit_pu: 1.0, follow: instantaneous");
+    let c = one(&s, &rules(&inst));
+    assert_eq!(c.verdict, Verdict::Pass, "{}", c.detail);
+    // The same with a step of the requirement smaller than the band width
+    // (0.5 → 0.3 pu: 0.8 → 1.0 pu, 0.2 < 0.3): the clock does not restart,
+    // and a unit that lags the step by τ·ln 2 = 3.5 ms below the band's
+    // lower edge 0.9 pu is outside the band 150 ms after the start: fail.
+    let v2 = |t: f64| {
         if (1.0..1.15).contains(&t) {
             0.5
         } else if (1.15..1.3).contains(&t) {
@@ -400,24 +507,11 @@ fn reactive_current_full_dead_band_and_instantaneous_follow() {
             1.0
         }
     };
-    let mut s = Sig::new(v);
-    let a = first_order(0.8, 0.005, 0.3);
-    s.iq = Box::new(move |t| {
-        if (1.15..1.3).contains(&t) {
-            0.8 + 0.2 * (1.0 - (-(t - 1.15) / 0.005).exp())
-        } else {
-            a(t)
-        }
-    });
-    let inst = IQ.replace("limit_pu: 1.0", "limit_pu: 1.0, follow: instantaneous");
+    let mut s = Sig::new(v2);
+    s.iq = follower(0.8, 1.0);
     let c = one(&s, &rules(&inst));
-    assert_eq!(c.verdict, Verdict::Pass, "{}", c.detail);
-    // Settled mode takes one requirement from the mean deviation over
-    // 1.06..1.28 s: (0.09·(−0.5) + 0.13·(−0.7))/0.22 = −0.618 → 1.0 pu;
-    // the first part (0.8 pu) is outside [0.9, 1.2] until the second step
-    // brings it to 0.9 pu, τ·ln 2 after 1.15 s: settling 0.1535 s > 0.06 s: fail.
-    let c = one(&s, &rules(IQ));
     assert_eq!(c.verdict, Verdict::Fail, "{}", c.detail);
+    assert_eq!(c.reason, Some(Reason::SettledTooLate));
     assert!(
         close(c.settling_time_s, 0.15 + 0.005 * 2f64.ln(), DT),
         "{:?}",
@@ -540,4 +634,424 @@ fn each_disturbance_is_judged_on_its_own() {
     assert_eq!((c[0].disturbance, c[0].verdict), (Some(0), Verdict::Pass));
     assert_eq!((c[1].disturbance, c[1].verdict), (Some(1), Verdict::Pass));
     assert_eq!(c[1].permitted_trip, Some(true));
+}
+
+// ------------------------------------------------ connection (decision A.1)
+
+#[test]
+fn a_trip_without_any_disturbance_fails_the_connection_check() {
+    // A pure phase jump leaves |V| at 1.0 pu (no disturbance); the unit
+    // trips at 1.1 s. Every rule check is not applicable, but the unit left
+    // the grid while the voltage was inside the normal band: fail.
+    let mut s = Sig::new(|_| 1.0);
+    s.status = status_open_at(1.1);
+    let r = rules(LVRT);
+    let c = connection(&s, &r);
+    assert_eq!(c.verdict, Verdict::Fail, "{}", c.detail);
+    assert_eq!(c.reason, Some(Reason::TripOutsideDisturbance));
+    assert!(close(c.at_s, 1.1, 1e-9));
+    assert!(close(c.measured, 1.0, 1e-12), "voltage at the trip");
+    let det = detection_settings(&r, 50.0);
+    assert_eq!(
+        engine::evaluate(&s.series(), &r, &det, None).verdict,
+        Verdict::Fail
+    );
+    // Connected throughout: pass.
+    s.status = status_open_at(99.0);
+    let c = connection(&s, &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Pass, Some(Reason::StayedConnected))
+    );
+    // Neither status nor current: a trip cannot be seen.
+    s.status = None;
+    s.currents = false;
+    let c = connection(&s, &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Inconclusive, Some(Reason::TripNotVisible))
+    );
+}
+
+#[test]
+fn connection_follows_the_zone_checks_during_a_disturbance() {
+    // A trip the zone check permits (0.3 pu for 1 s, trip at 1.8 s after
+    // leaving the zone at 1.627 s) passes; one inside the zone fails.
+    let mut s = Sig::new(dip(0.3, 1.0));
+    s.status = status_open_at(1.8);
+    let c = connection(&s, &rules(LVRT));
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Pass, Some(Reason::PermittedTrip))
+    );
+    s.status = status_open_at(1.2);
+    let c = connection(&s, &rules(LVRT));
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Fail, Some(Reason::TripInsideZone))
+    );
+    // A trip during a swell that no zone check of the rule set judges
+    // (only an undervoltage envelope): the data cannot decide.
+    let mut s = Sig::new(|t| if (1.0..1.3).contains(&t) { 1.2 } else { 1.0 });
+    s.status = status_open_at(1.1);
+    let c = connection(&s, &rules(LVRT));
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Inconclusive, Some(Reason::TripNotJudged))
+    );
+    // After the disturbance the voltage is normal again: a trip 1 s after
+    // the swell ended is outside every disturbance the rule set judges.
+    s.status = status_open_at(2.5);
+    let c = connection(&s, &rules(LVRT));
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Fail, Some(Reason::TripOutsideDisturbance))
+    );
+    // Momentary cessation while the voltage is normal, with a rule that
+    // forbids cessation: fail; allowed: pass.
+    let mut s = Sig::new(|_| 1.0);
+    s.status = status_open_at(99.0);
+    s.ip = Box::new(|t| if (1.5..1.6).contains(&t) { 0.0 } else { 0.8 });
+    let forbidding = LVRT.replace(" }", ", momentary_cessation: forbidden }");
+    let c = connection(&s, &rules(&forbidding));
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Fail, Some(Reason::CessationOutsideDisturbance))
+    );
+    assert_eq!(connection(&s, &rules(LVRT)).verdict, Verdict::Pass);
+}
+
+#[test]
+fn no_analysed_samples_never_passes() {
+    // Decision A.3: an empty series (shorter than one analysis window).
+    let s = Series::from_columns(Vec::new(), vec![(Quantity::V1, Vec::new())]).unwrap();
+    let r = rules(LVRT);
+    let out = engine::evaluate(&s, &r, &detection_settings(&r, 50.0), None);
+    assert_eq!(out.verdict, Verdict::Inconclusive);
+    assert!(out
+        .checks
+        .iter()
+        .all(|c| c.verdict == Verdict::Inconclusive && c.reason == Some(Reason::InsufficientData)));
+}
+
+#[test]
+fn phase_to_neutral_rules_need_the_zero_sequence() {
+    // Decision A.4: phase voltages derived from phase-to-phase recordings
+    // assume V0 = 0, so a min-phase-to-neutral rule cannot judge them: the
+    // series has Va..Vc but no V0 (what the analysis gives for such data).
+    let n = 3000;
+    let t: Vec<f64> = (0..n).map(|k| k as f64 * DT).collect();
+    let v: Vec<f64> = t
+        .iter()
+        .map(|x| if (1.0..1.3).contains(x) { 0.5 } else { 1.0 })
+        .collect();
+    let cols = [Quantity::V1, Quantity::Va, Quantity::Vb, Quantity::Vc]
+        .into_iter()
+        .map(|q| (q, v.clone()))
+        .collect();
+    let mut cols: Vec<(Quantity, Vec<f64>)> = cols;
+    cols.push((Quantity::Status, vec![1.0; n]));
+    let s = Series::from_columns(t, cols).unwrap();
+    let r = rules(LVRT);
+    let mut r2 = r.clone();
+    r2.applicable_voltage = holdfast::analysis::events::ApplicableVoltage::MinPhaseToNeutral;
+    let out = engine::evaluate(&s, &r2, &detection_settings(&r2, 50.0), None);
+    let lvrt = out.checks.iter().find(|c| c.id == "lvrt").unwrap();
+    assert_eq!(lvrt.verdict, Verdict::Inconclusive);
+    assert_eq!(lvrt.reason, Some(Reason::VoltageUnobservable));
+    // The positive sequence is observable from the same data.
+    let out = engine::evaluate(&s, &r, &detection_settings(&r, 50.0), None);
+    assert_ne!(
+        out.checks.iter().find(|c| c.id == "lvrt").unwrap().verdict,
+        Verdict::Inconclusive
+    );
+}
+
+// ----------------------------------------- margins and reasons (B.6, B.7)
+
+#[test]
+fn zone_margins_agree_with_the_verdict() {
+    // Trip inside the zone: 0.3 pu held, trip at 1.2 s (τ = 0.2 s,
+    // C = 0.85·0.05/1.35 = 0.0315 pu): headroom 0.3 − 0.0315 = 0.2685 pu at
+    // the trip instant, so the margin is −0.2685 pu.
+    let mut s = Sig::new(dip(0.3, 0.3));
+    s.status = status_open_at(1.2);
+    let c = one(&s, &rules(LVRT));
+    assert_eq!(c.reason, Some(Reason::TripInsideZone));
+    assert!(
+        close(c.margin, -(0.3 - 0.85 * 0.05 / 1.35), 1e-9),
+        "{:?}",
+        c.margin
+    );
+    assert!(close(c.at_s, 1.2, 1e-9));
+    // Permitted trip: 1 s dip leaves the zone at 1.627 s; trip at 1.8 s:
+    // margin 0.173 s in seconds.
+    let mut s = Sig::new(dip(0.3, 1.0));
+    s.status = status_open_at(1.8);
+    let c = one(&s, &rules(LVRT));
+    assert_eq!(
+        (c.reason, c.unit.as_str()),
+        (Some(Reason::PermittedTrip), "s")
+    );
+    assert!(close(c.margin, 1.8 - 1.627, 1e-9), "{:?}", c.margin);
+    // Duration table, trip inside: 0.5 pu from 1.0 s, trip at 1.2 s: below
+    // 0.65 pu for 0.2 s (samples 1.000..1.200) against 0.30 s: −0.1 s.
+    let mut s = Sig::new(dip(0.5, 0.4));
+    s.status = status_open_at(1.2);
+    let c = one(&s, &rules(TABLE));
+    assert_eq!(c.reason, Some(Reason::TripInsideZone));
+    assert!(close(c.margin, -(0.30 - 0.2), 1e-9), "{:?}", c.margin);
+    // Inconclusive rows carry neither measured value nor margin.
+    let mut s = Sig::new(dip(0.3, 0.3));
+    s.currents = false;
+    let c = one(&s, &rules(LVRT));
+    assert_eq!(c.verdict, Verdict::Inconclusive);
+    assert_eq!((c.measured, c.margin), (None, None));
+}
+
+// ---------------------------------------- several disturbances (C.9–C.11)
+
+#[test]
+fn two_faults_share_references_and_bound_each_search() {
+    // Faults at 1.0–1.2 s and 1.5–1.7 s (to 0.3 pu). Active current 0.8 pu
+    // before, 0 in each fault, ramping back at 2 pu/s after each. The second
+    // fault's pre-fault window (1.38–1.48 s) lies inside the first's
+    // recovery allowance (1.2 + 1.0 s), so it inherits the first's
+    // references: P0 = 0.8 pu, not the 0.36–0.56 pu of the ramp.
+    let v = |t: f64| {
+        if (1.0..1.2).contains(&t) || (1.5..1.7).contains(&t) {
+            0.3
+        } else {
+            1.0
+        }
+    };
+    let ip = |t: f64| {
+        if t < 1.0 {
+            0.8
+        } else if t < 1.2 {
+            0.0
+        } else if t < 1.5 {
+            (2.0 * (t - 1.2)).min(0.8)
+        } else if t < 1.7 {
+            0.0
+        } else {
+            (2.0 * (t - 1.7)).min(0.8)
+        }
+    };
+    let mut s = Sig::new(v);
+    s.ip = Box::new(ip);
+    s.iq = Box::new(|t| {
+        if (1.0..1.2).contains(&t) || (1.5..1.7).contains(&t) {
+            0.5
+        } else {
+            0.0
+        }
+    });
+    s.status = status_open_at(99.0);
+    let r = rules(APR);
+    let out = engine::evaluate(&s.series(), &r, &detection_settings(&r, 50.0), None);
+    assert_eq!(out.disturbances.len(), 2);
+    assert_eq!(out.disturbances[1].prefault_from, Some(0));
+    let p0 = out.disturbances[1].prefault.unwrap().p_pu.unwrap();
+    assert!((p0 - 0.8).abs() < 1e-9, "{p0}");
+    // First fault: target 0.72 pu, which the ramp reaches at 1.2 + 0.36 s
+    // = 1.56 s, after the second fault started at 1.5 s: the search ends
+    // there and the 1 s deadline lies beyond it: inconclusive.
+    let c: Vec<_> = out.checks.iter().filter(|c| c.id == "p").collect();
+    assert_eq!(
+        (c[0].verdict, c[0].reason),
+        (Verdict::Inconclusive, Some(Reason::NextDisturbance))
+    );
+    // Second fault: reached at 1.7 + 0.36 = 2.06 s: 0.36 s.
+    assert_eq!(c[1].verdict, Verdict::Pass);
+    assert!(close(c[1].measured, 0.36, DT), "{:?}", c[1].measured);
+}
+
+#[test]
+fn recovery_after_a_trip_is_excused_only_when_every_zone_check_permits_it() {
+    // 0.3 pu for 1 s; trip at 1.8 s. The envelope was left at 1.627 s
+    // (permitted); a table "below 0.45 pu for up to 0.9 s" is only left at
+    // 1.9 s, so for it the trip is inside the zone: recovery is required
+    // and fails (decision C.11).
+    let table = "  - { id: lv, type: duration_table, side: below, rows: [{ beyond_pu: 0.45, max_s: 0.9 }] }\n";
+    let mut s = Sig::new(dip(0.3, 1.0));
+    s.status = status_open_at(1.8);
+    let c = run(&s, &rules(&format!("{LVRT}{table}{APR}")));
+    assert_eq!(c[0].reason, Some(Reason::PermittedTrip));
+    assert_eq!(c[1].reason, Some(Reason::TripInsideZone));
+    assert_eq!(
+        (c[2].verdict, c[2].reason),
+        (Verdict::Fail, Some(Reason::TrippedBeforeRecovery))
+    );
+    // With only the envelope, every zone check permits it: not applicable.
+    let c = run(&s, &rules(&format!("{LVRT}{APR}")));
+    assert_eq!(
+        (c[1].verdict, c[1].reason),
+        (Verdict::NotApplicable, Some(Reason::TripPermitted))
+    );
+}
+
+#[test]
+fn recovery_hold_time() {
+    // The ramp at 2 pu/s from the end at 1.3 s reaches 0.72 pu at 1.66 s; P
+    // drops to 0.5 pu for 1.70–1.75 s, then holds. With hold_s 0.1 the first
+    // run (1.66–1.70 s) is too short, so recovery counts from 1.75 s:
+    // 0.45 s after the end; without a hold time it is 0.36 s.
+    let mut s = Sig::new(dip(0.2, 0.3));
+    s.status = status_open_at(99.0);
+    s.iq = first_order(0.5, 0.005, 0.3);
+    let base = ramp(2.0);
+    s.ip = Box::new(move |t| {
+        if (1.70..1.75).contains(&t) {
+            0.5
+        } else {
+            base(t)
+        }
+    });
+    let held = APR.replace("within_s: 1.0", "within_s: 1.0, hold_s: 0.1");
+    let c = one(&s, &rules(&held));
+    assert_eq!(c.verdict, Verdict::Pass, "{}", c.detail);
+    assert!(close(c.measured, 0.45, DT), "{:?}", c.measured);
+    let c = one(&s, &rules(APR));
+    assert!(close(c.measured, 0.36, DT), "{:?}", c.measured);
+}
+
+// ------------------------------------------------ reactive current (D.13–15)
+
+#[test]
+fn negative_requirement_band_is_mirrored() {
+    // Required ΔIq2 = −0.2 pu (see above), tolerance [−0.1, +0.2]: the band
+    // is [r + s·lo, r + s·hi] with s = −1: from −0.1 to −0.4 pu. A unit
+    // settling at −0.38 pu (0.18 pu more inductive current than required)
+    // is inside; at −0.42 pu it is outside.
+    let neg = IQ.replace("gain: 2", "sequence: negative, gain: 2");
+    for (fin, ok) in [(-0.38, true), (-0.42, false)] {
+        let mut s = Sig::new(dip(0.7, 0.3));
+        let resp = first_order(fin, 0.005, 0.3);
+        s.v2 = Some((
+            Box::new(|t| if (1.0..1.3).contains(&t) { 0.2 } else { 0.0 }),
+            Box::new(move |t| {
+                if (1.0..1.3).contains(&t) {
+                    resp(t)
+                } else {
+                    0.0
+                }
+            }),
+        ));
+        let c = one(&s, &rules(&neg));
+        assert_eq!(c.verdict == Verdict::Pass, ok, "{fin}: {}", c.detail);
+    }
+}
+
+#[test]
+fn rise_time_from_the_inception() {
+    // The waveform deviation marks the inception 10 ms before the phasor
+    // start at 1.0 s (as a one-cycle window shows a shallow step late).
+    // time_from: inception measures the rise from 0.99 s: τ·ln 10 + 10 ms.
+    let tau = 0.005;
+    let mut s = Sig::new(dip(0.5, 0.3));
+    s.iq = first_order(0.8, tau, 0.3);
+    s.dev = Some(Box::new(
+        |t| if (0.99..1.01).contains(&t) { 0.5 } else { 0.0 },
+    ));
+    s.status = status_open_at(99.0);
+    let from = IQ.replace("limit_pu: 1.0", "limit_pu: 1.0, time_from: inception");
+    let c = one(&s, &rules(&from));
+    assert!(close(c.time_from_s, 0.99, 1e-9), "{:?}", c.time_from_s);
+    assert!(
+        close(c.measured, tau * 10f64.ln() + 0.01, DT),
+        "{:?}",
+        c.measured
+    );
+    let c = one(&s, &rules(IQ));
+    assert!(close(c.measured, tau * 10f64.ln(), DT));
+}
+
+#[test]
+fn short_fault_requirement_comes_from_after_the_rise_time() {
+    // A 55 ms fault: 0.7 pu for 25 ms, then 0.5 pu. Shorter than the 60 ms
+    // settling time, so only the rise time is judged, with the requirement
+    // from the mean deviation between the rise-time limit (1.03 s) and one
+    // cycle before the end (1.035 s), where V = 0.5 pu: 2·(0.5 − 0.1) = 0.8.
+    let v = |t: f64| {
+        if (1.0..1.025).contains(&t) {
+            0.7
+        } else if (1.025..1.055).contains(&t) {
+            0.5
+        } else {
+            1.0
+        }
+    };
+    let mut s = Sig::new(v);
+    s.iq = first_order(0.8, 0.002, 0.055);
+    let c = one(&s, &rules(IQ));
+    assert!(close(c.required_pu, 0.8, 1e-9), "{:?}", c.required_pu);
+    assert!(
+        c.detail.contains("too short for the settling time"),
+        "{}",
+        c.detail
+    );
+}
+
+#[test]
+fn measured_gain_of_an_exact_unit_is_the_required_gain() {
+    // Decision B.8: ΔIq = k·(|ΔV| − db) exactly (no lag): the mean of
+    // ΔIq/(|ΔV| − db) over the settled part is k = 2; a limited requirement
+    // says so instead.
+    let mut s = Sig::new(dip(0.6, 0.3));
+    s.iq = Box::new(|t| {
+        if (1.0..1.3).contains(&t) {
+            2.0 * (0.4 - 0.1)
+        } else {
+            0.0
+        }
+    });
+    let c = one(&s, &rules(IQ));
+    assert!(close(c.measured_gain, 2.0, 1e-9), "{:?}", c.measured_gain);
+    assert_eq!(c.limited, Some(false));
+    let mut s = Sig::new(dip(0.2, 0.3));
+    s.iq = Box::new(|t| if (1.0..1.3).contains(&t) { 1.0 } else { 0.0 });
+    let c = one(&s, &rules(IQ));
+    assert_eq!(c.limited, Some(true), "2·0.7 = 1.4 > 1.0");
+    assert_eq!(c.verdict, Verdict::Pass);
+}
+
+// ------------------------------------------------ test realisation (D.16)
+
+#[test]
+fn realisation_uses_the_extreme_and_inception_to_clearance() {
+    use holdfast::rules::realisation::Expect;
+    // Dip to 0.3 pu from 1.0 to 1.25 s at phasor level; the waveform
+    // deviation |x[n] − x[n−N]| is non-zero for one cycle (20 ms) after the
+    // inception at 0.995 s and after the clearance at 1.245 s: 0.25 s.
+    // Planned 0.25 s ± max(20 ms, 10 %) = ± 25 ms; residual 0.3 ± 0.05.
+    let mut s = Sig::new(dip(0.3, 0.25));
+    s.dev = Some(Box::new(|t| {
+        if (0.9945..1.0145).contains(&t) || (1.2445..1.2645).contains(&t) {
+            0.5
+        } else {
+            0.0
+        }
+    }));
+    s.status = status_open_at(99.0);
+    let r = rules(LVRT);
+    let e: Expect = serde_yaml::from_str("{ residual_pu: 0.3, duration_s: 0.25 }").unwrap();
+    let out = engine::evaluate(&s.series(), &r, &detection_settings(&r, 50.0), Some(&e));
+    let d = &out.disturbances[0];
+    assert!(close(d.inception_s, 0.995, 1e-9), "{:?}", d.inception_s);
+    assert!(close(d.clearance_s, 1.245, 1e-9), "{:?}", d.clearance_s);
+    let c = &out.checks[0];
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Pass, Some(Reason::AsPlanned)),
+        "{}",
+        c.detail
+    );
+    assert!(c.detail.contains("inception to clearance"), "{}", c.detail);
+    assert!(close(Some(e.duration_tolerance(0.25)), 0.025, 1e-12));
+    assert!(close(Some(e.duration_tolerance(0.1)), 0.02, 1e-12));
+    // Planned 0.3 s: 0.25 differs by 0.05 > 0.03 (10 %): not as planned.
+    let e: Expect = serde_yaml::from_str("{ duration_s: 0.3 }").unwrap();
+    let out = engine::evaluate(&s.series(), &r, &detection_settings(&r, 50.0), Some(&e));
+    assert_eq!(out.checks[0].reason, Some(Reason::NotAsPlanned));
 }

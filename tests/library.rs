@@ -244,6 +244,8 @@ fn dip_series(v: f64, hold: f64, trip: f64, len: f64) -> Series {
     .into_iter()
     .map(|q| (q, volt.clone()))
     .collect();
+    // A phase-to-neutral recording: the zero sequence is observed (zero).
+    cols.push((Quantity::V0, vec![0.0; volt.len()]));
     cols.push((Quantity::Status, status));
     Series::from_columns(t, cols).unwrap()
 }

@@ -35,6 +35,7 @@ fn try_all(path: &Path) {
         }),
         frequency_hz: 50.0,
         points_per_cycle: 64,
+        phase_order: Default::default(),
     };
     if let Ok(src) = open(path, &map, &ImportOptions::default()) {
         let _ = analyse(src, &settings);

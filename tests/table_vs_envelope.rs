@@ -7,32 +7,15 @@
 //! monotonically: the voltage has been below x_i for τ − 0 exactly while
 //! V(t0 + τ) < x_i, so "r_i ≥ d_i" ⇔ "V(t0 + d_i) < x_i" ⇔ "V < C at τ = d_i".
 //! The upper side is the mirror image. Checked on both verdict inputs: the
-//! first time outside the zone, and the verdict given a trip time.
+//! first time outside the zone, and the verdict given a trip time. The
+//! staircase is the one the figures draw (`zone::table_boundary`).
 
 use holdfast::rules::result::{CheckResult, Verdict};
 use holdfast::rules::spec::{Bound, Cessation, Side, TableMode, TableRow};
-use holdfast::rules::zone::{scan_envelope, scan_table, zone_verdict, ConnectionFacts, Timing};
+use holdfast::rules::zone::{
+    scan_envelope, scan_table, table_boundary, zone_verdict, ConnectionFacts, Timing,
+};
 use proptest::prelude::*;
-
-fn staircase(rows: &[TableRow], side: Side) -> Vec<[f64; 2]> {
-    let mut ds: Vec<f64> = rows.iter().map(|r| r.max_s).collect();
-    ds.sort_by(f64::total_cmp);
-    ds.dedup();
-    let level = |tau: f64| {
-        let lv = rows.iter().filter(|r| r.max_s <= tau).map(|r| r.beyond_pu);
-        match side {
-            Side::Below => lv.fold(0.0, f64::max),
-            Side::Above => lv.fold(3.0, f64::min),
-        }
-    };
-    let mut pts = vec![[0.0, level(-1.0)]];
-    for d in ds {
-        let before = pts.last().unwrap()[1];
-        pts.push([d, before]);
-        pts.push([d, level(d)]);
-    }
-    pts
-}
 
 fn verdict(scan: &holdfast::rules::zone::ZoneScan, trip: Option<f64>) -> Verdict {
     let conn = ConnectionFacts {
@@ -44,12 +27,12 @@ fn verdict(scan: &holdfast::rules::zone::ZoneScan, trip: Option<f64>) -> Verdict
     let r = CheckResult::new("x", "x", Some(0), "pu");
     let timing = Timing {
         t0: 1.0,
-        disturbance_s: Some(1.0),
+        end_s: Some(2.0),
         cycle_s: 0.02,
         recording_end_s: 10.0,
         needs_until_s: f64::NEG_INFINITY,
     };
-    zone_verdict(r, scan, &conn, &timing, Cessation::Allowed).verdict
+    zone_verdict(r, scan, None, &conn, &timing, Cessation::Allowed).verdict
 }
 
 prop_compose! {
@@ -89,7 +72,7 @@ fn check(
         .collect();
     // Exact grid times for the start: index 1000.
     let t0 = t[1000];
-    let envelope = staircase(&rows, side);
+    let envelope = table_boundary(&rows, side);
     let bound = match side {
         Side::Below => Bound::Lower,
         Side::Above => Bound::Upper,

@@ -84,6 +84,14 @@ impl ApplicableVoltage {
             ApplicableVoltage::MaxPhaseToPhase => {
                 pick([Quantity::Vab, Quantity::Vbc, Quantity::Vca], true)
             }
+            ApplicableVoltage::MinPhaseToNeutral | ApplicableVoltage::MaxPhaseToNeutral
+                if s.has(Quantity::Va) && !s.has(Quantity::V0) =>
+            {
+                Err(format!(
+                    "the recording's voltages are phase to phase, so the zero sequence is unobservable and the {} voltage is not known",
+                    self.name().replace('_', " ")
+                ))
+            }
             ApplicableVoltage::MinPhaseToNeutral => {
                 pick([Quantity::Va, Quantity::Vb, Quantity::Vc], false)
             }
@@ -107,8 +115,13 @@ pub struct DetectionSettings {
     pub min_return_s: f64,
     /// Length of the pre-fault averaging window.
     pub prefault_window_s: f64,
-    /// Gap between the pre-fault window and the disturbance start.
+    /// Gap between the pre-fault window and the disturbance start (one
+    /// nominal cycle: the one-cycle window reaches that far back).
     pub prefault_guard_s: f64,
+    /// After a disturbance ends, the time its recovery may take; a later
+    /// disturbance's pre-fault window must not overlap it (the rule set's
+    /// longest `within_s`, 1 s when it has none).
+    pub recovery_allowance_s: f64,
     /// `|V2|/|V1|` above which a disturbance is unbalanced.
     pub unbalance_ratio: f64,
     pub trip_current_pu: f64,
@@ -126,7 +139,8 @@ impl DetectionSettings {
             min_duration_s: 0.0,
             min_return_s: 0.05,
             prefault_window_s: 0.10,
-            prefault_guard_s: 0.02,
+            prefault_guard_s: 1.0 / frequency_hz,
+            recovery_allowance_s: 1.0,
             unbalance_ratio: 0.05,
             trip_current_pu: 0.05,
             trip_min_s: 0.02,
@@ -142,6 +156,15 @@ pub enum DisturbanceKind {
     Overvoltage,
 }
 
+impl DisturbanceKind {
+    pub fn name(self) -> &'static str {
+        match self {
+            DisturbanceKind::Undervoltage => "undervoltage",
+            DisturbanceKind::Overvoltage => "overvoltage",
+        }
+    }
+}
+
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Balance {
@@ -149,6 +172,16 @@ pub enum Balance {
     Unbalanced,
     /// Too short for a settled part, or no phase information.
     Undetermined,
+}
+
+impl Balance {
+    pub fn name(self) -> &'static str {
+        match self {
+            Balance::Symmetrical => "symmetrical",
+            Balance::Unbalanced => "unbalanced",
+            Balance::Undetermined => "undetermined",
+        }
+    }
 }
 
 /// Means over the pre-fault window.
@@ -195,14 +228,32 @@ pub struct Disturbance {
     /// The settled part: one nominal cycle after the start to one before the end.
     pub settled_s: Option<(f64, f64)>,
     pub residual: Option<Residual>,
+    /// The references this disturbance is judged against (its own, or
+    /// those of the first disturbance of its chain).
     pub prefault: Option<Prefault>,
+    /// Set when the references were inherited from that earlier disturbance.
+    pub prefault_from: Option<usize>,
     /// Why no pre-fault reference could be formed.
     pub prefault_problem: Option<String>,
+    /// Waveforms: the instant the waveform left the pre-fault sinusoid
+    /// (resolution: one analysis output step, 1/64 cycle).
+    pub inception_s: Option<f64>,
+    /// Waveforms: the instant the waveform left the fault-period sinusoid at
+    /// the end (fault clearance); `None` when the fault is too short to
+    /// separate it from the inception, or it never ended.
+    pub clearance_s: Option<f64>,
 }
 
 impl Disturbance {
     pub fn duration_s(&self) -> Option<f64> {
         self.end_s.map(|e| e - self.start_s)
+    }
+    /// Fault duration: inception to clearance on waveforms, else start to end.
+    pub fn fault_duration_s(&self) -> Option<f64> {
+        match (self.inception_s, self.clearance_s) {
+            (Some(a), Some(b)) => Some(b - a),
+            _ => self.duration_s(),
+        }
     }
 }
 
@@ -223,28 +274,30 @@ fn mean_of(v: &[f64], s: &Series, from: f64, to: f64) -> Option<f64> {
     (n > 0).then(|| sum / n as f64)
 }
 
-/// Finds every disturbance of the applicable voltage.
-pub fn detect_disturbances(
-    s: &Series,
-    cfg: &DetectionSettings,
-) -> Result<Vec<Disturbance>, String> {
-    let v = cfg.applicable.series(s)?;
+/// An excursion of the applicable voltage beyond the normal band.
+struct Excursion {
+    kind: DisturbanceKind,
+    start: f64,
+    end: Option<f64>,
+    confirmed: bool,
+    extreme: f64,
+    extreme_at: f64,
+}
+
+/// Finds the excursions: start when the voltage leaves the normal band, end
+/// at the re-entry into the hysteresis band once it has lasted `min_return_s`.
+fn excursions(t: &[f64], v: &[f64], cfg: &DetectionSettings) -> Vec<Excursion> {
     let lo_in = cfg.below_pu + cfg.hysteresis_pu;
     let hi_in = cfg.above_pu - cfg.hysteresis_pu;
-    struct Open {
-        kind: DisturbanceKind,
-        start: f64,
-        extreme: f64,
-        extreme_at: f64,
-        back_since: Option<f64>,
-    }
-    let mut raw: Vec<(DisturbanceKind, f64, Option<f64>, bool, f64, f64)> = Vec::new();
-    let mut open: Option<Open> = None;
+    let mut out = Vec::new();
+    let mut open: Option<Excursion> = None;
+    // Since when the open excursion's voltage is back inside the band.
+    let mut back_since: Option<f64> = None;
     for (i, &x) in v.iter().enumerate() {
-        let t = s.t[i];
         if !x.is_finite() {
             continue;
         }
+        let ti = t[i];
         let side = if x < cfg.below_pu {
             Some(DisturbanceKind::Undervoltage)
         } else if x > cfg.above_pu {
@@ -252,117 +305,200 @@ pub fn detect_disturbances(
         } else {
             None
         };
-        match &mut open {
-            None => {
-                if let Some(kind) = side {
-                    open = Some(Open {
-                        kind,
-                        start: t,
-                        extreme: x,
-                        extreme_at: t,
-                        back_since: None,
-                    });
-                }
+        let begin = |kind| Excursion {
+            kind,
+            start: ti,
+            end: None,
+            confirmed: false,
+            extreme: x,
+            extreme_at: ti,
+        };
+        let Some(o) = open.as_mut() else {
+            open = side.map(begin);
+            back_since = None;
+            continue;
+        };
+        if side.is_some_and(|k| k != o.kind) {
+            // Straight from a sag into a swell (or back): close the first at
+            // its re-entry, or here, and open the next.
+            o.end = Some(back_since.unwrap_or(ti));
+            o.confirmed = true;
+            out.extend(open.take());
+            open = side.map(begin);
+            back_since = None;
+            continue;
+        }
+        let worse = match o.kind {
+            DisturbanceKind::Undervoltage => x < o.extreme,
+            DisturbanceKind::Overvoltage => x > o.extreme,
+        };
+        if worse {
+            o.extreme = x;
+            o.extreme_at = ti;
+        }
+        if x >= lo_in && x <= hi_in {
+            let since = *back_since.get_or_insert(ti);
+            if ti - since >= cfg.min_return_s {
+                o.end = Some(since);
+                o.confirmed = true;
+                out.extend(open.take());
+                back_since = None;
             }
-            Some(o) => {
-                if let Some(kind) = side {
-                    if kind != o.kind {
-                        // Straight from a sag into a swell (or back): close
-                        // the first at its re-entry, or here.
-                        let end = o.back_since.unwrap_or(t);
-                        raw.push((o.kind, o.start, Some(end), true, o.extreme, o.extreme_at));
-                        open = Some(Open {
-                            kind,
-                            start: t,
-                            extreme: x,
-                            extreme_at: t,
-                            back_since: None,
-                        });
-                        continue;
-                    }
-                }
-                let worse = match o.kind {
-                    DisturbanceKind::Undervoltage => x < o.extreme,
-                    DisturbanceKind::Overvoltage => x > o.extreme,
-                };
-                if worse {
-                    o.extreme = x;
-                    o.extreme_at = t;
-                }
-                let inside = x >= lo_in && x <= hi_in;
-                if inside {
-                    let since = *o.back_since.get_or_insert(t);
-                    if t - since >= cfg.min_return_s {
-                        raw.push((o.kind, o.start, Some(since), true, o.extreme, o.extreme_at));
-                        open = None;
-                    }
-                } else {
-                    o.back_since = None;
-                }
-            }
+        } else {
+            back_since = None;
         }
     }
-    if let Some(o) = open {
-        raw.push((
-            o.kind,
-            o.start,
-            o.back_since,
-            false,
-            o.extreme,
-            o.extreme_at,
-        ));
+    if let Some(mut o) = open {
+        o.end = back_since;
+        out.push(o);
     }
+    out
+}
+
+/// Balance, unbalance ratio and residual voltages over the settled part.
+fn settled_facts(
+    s: &Series,
+    cfg: &DetectionSettings,
+    settled: Option<(f64, f64)>,
+) -> (Balance, Option<f64>, Option<Residual>) {
+    let Some((a, b)) = settled else {
+        return (Balance::Undetermined, None, None);
+    };
+    let v1 = mean_between(s, Quantity::V1, a, b).unwrap_or(f64::NAN);
+    let ratio = match (s.get(Quantity::V1), s.get(Quantity::V2)) {
+        (Some(v1s), Some(v2s)) => {
+            let r: Vec<f64> = v1s
+                .iter()
+                .zip(v2s)
+                .map(|(a, b)| if *a > 1e-6 { b / a } else { f64::NAN })
+                .collect();
+            mean_of(&r, s, a, b)
+        }
+        _ => None,
+    };
+    let balance = match ratio {
+        Some(r) if r > cfg.unbalance_ratio => Balance::Unbalanced,
+        Some(_) => Balance::Symmetrical,
+        None => Balance::Undetermined,
+    };
+    let tri = |qs: [Quantity; 3]| -> Option<[f64; 3]> {
+        Some([
+            mean_between(s, qs[0], a, b)?,
+            mean_between(s, qs[1], a, b)?,
+            mean_between(s, qs[2], a, b)?,
+        ])
+    };
+    let residual = Residual {
+        v1_pu: v1,
+        v2_pu: mean_between(s, Quantity::V2, a, b),
+        phase_pu: tri([Quantity::Va, Quantity::Vb, Quantity::Vc]),
+        line_pu: tri([Quantity::Vab, Quantity::Vbc, Quantity::Vca]),
+    };
+    (balance, ratio, Some(residual))
+}
+
+fn prefault_means(s: &Series, v: &[f64], from: f64, to: f64) -> Prefault {
+    Prefault {
+        from_s: from,
+        to_s: to,
+        v_pu: mean_of(v, s, from, to).unwrap_or(f64::NAN),
+        v1_pu: mean_between(s, Quantity::V1, from, to).unwrap_or(f64::NAN),
+        p_pu: mean_between(s, Quantity::P, from, to),
+        q_pu: mean_between(s, Quantity::Q, from, to),
+        ip_pu: mean_between(s, Quantity::Ip, from, to),
+        iq_pu: mean_between(s, Quantity::Iq, from, to),
+        iq2_pu: mean_between(s, Quantity::Iq2, from, to),
+        v2_pu: mean_between(s, Quantity::V2, from, to),
+    }
+}
+
+/// The first output point in `[from, to]` whose waveform deviation exceeds
+/// `threshold`.
+fn first_deviation(s: &Series, dev: &[f64], from: f64, to: f64, threshold: f64) -> Option<f64> {
+    let a = s.index_at(from);
+    (a..s.len())
+        .take_while(|&k| s.t[k] <= to)
+        .find(|&k| dev[k] > threshold)
+        .map(|k| s.t[k])
+}
+
+/// The clearance after an inception at `inc`, for a disturbance that ended
+/// (phasor level) at `end`. `x[n] − x[n−N]` is non-zero for one cycle after
+/// the inception; for a fault of length `L` longer than a cycle it is quiet
+/// from `inc + N` until the clearance, for a shorter one it falls quiet at
+/// the clearance within the first cycle (and echoes one cycle later). A
+/// quiet stretch shorter than a quarter cycle is not told apart from the
+/// zero crossings of the waveform.
+fn clearance(s: &Series, dev: &[f64], inc: f64, end: f64, cycle: f64, thr: f64) -> Option<f64> {
+    let a = s.index_at(inc);
+    let b = s.index_at(inc + cycle);
+    let quiet_for = |k: usize| -> bool {
+        let until = s.t[k] + 0.25 * cycle;
+        (k..s.len())
+            .take_while(|&j| s.t[j] <= until)
+            .all(|j| dev[j] <= thr)
+    };
+    if let Some(k) = (a + 1..b.min(s.len())).find(|&k| dev[k] <= thr && quiet_for(k)) {
+        return Some(s.t[k]);
+    }
+    first_deviation(
+        s,
+        dev,
+        (end - 1.25 * cycle).max(inc + cycle + s.step()),
+        end,
+        thr,
+    )
+}
+
+/// Finds every disturbance of the applicable voltage.
+///
+/// Pre-fault references (decision C.9 in docs/rules.md) come from the window
+/// of `prefault_window_s` ending `prefault_guard_s` before the start, when
+/// it overlaps no earlier disturbance and no earlier disturbance's recovery
+/// allowance; otherwise the disturbance belongs to the chain of the previous
+/// one and inherits the references of the chain's first disturbance.
+pub fn detect_disturbances(
+    s: &Series,
+    cfg: &DetectionSettings,
+) -> Result<Vec<Disturbance>, String> {
+    let v = cfg.applicable.series(s)?;
     let cycle = 1.0 / cfg.frequency_hz;
     let t_first = s.t.first().copied().unwrap_or(0.0);
-    let mut out = Vec::new();
-    for (kind, start, end, confirmed, extreme, extreme_at) in raw {
-        if let Some(e) = end {
-            if e - start < cfg.min_duration_s {
-                continue;
-            }
+    let t_last = s.t.last().copied().unwrap_or(0.0);
+    let dev = s.get(Quantity::WaveDeviation);
+    let mut out: Vec<Disturbance> = Vec::new();
+    // Index of the first disturbance of the current chain.
+    let mut chain_head: Option<usize> = None;
+    for x in excursions(&s.t, &v, cfg) {
+        if x.end.is_some_and(|e| e - x.start < cfg.min_duration_s) {
+            continue;
         }
-        let settled_end = end.map(|e| e - cycle).unwrap_or(s.t[s.len() - 1]);
+        let start = x.start;
+        let settled_end = x.end.map(|e| e - cycle).unwrap_or(t_last);
         let settled = (settled_end > start + cycle).then_some((start + cycle, settled_end));
-        let (balance, ratio, residual) = match settled {
-            Some((a, b)) => {
-                let v1 = mean_between(s, Quantity::V1, a, b).unwrap_or(f64::NAN);
-                let ratio = match (s.get(Quantity::V1), s.get(Quantity::V2)) {
-                    (Some(v1s), Some(v2s)) => {
-                        let r: Vec<f64> = v1s
-                            .iter()
-                            .zip(v2s)
-                            .map(|(a, b)| if *a > 1e-6 { b / a } else { f64::NAN })
-                            .collect();
-                        mean_of(&r, s, a, b)
-                    }
-                    _ => None,
-                };
-                let balance = match ratio {
-                    Some(r) if r > cfg.unbalance_ratio => Balance::Unbalanced,
-                    Some(_) => Balance::Symmetrical,
-                    None => Balance::Undetermined,
-                };
-                let tri = |qs: [Quantity; 3]| -> Option<[f64; 3]> {
-                    Some([
-                        mean_between(s, qs[0], a, b)?,
-                        mean_between(s, qs[1], a, b)?,
-                        mean_between(s, qs[2], a, b)?,
-                    ])
-                };
-                let residual = Residual {
-                    v1_pu: v1,
-                    v2_pu: mean_between(s, Quantity::V2, a, b),
-                    phase_pu: tri([Quantity::Va, Quantity::Vb, Quantity::Vc]),
-                    line_pu: tri([Quantity::Vab, Quantity::Vbc, Quantity::Vca]),
-                };
-                (balance, ratio, Some(residual))
-            }
-            None => (Balance::Undetermined, None, None),
-        };
+        let (balance, ratio, residual) = settled_facts(s, cfg, settled);
         let pf_to = start - cfg.prefault_guard_s;
         let pf_from = pf_to - cfg.prefault_window_s;
-        let (prefault, problem) = if pf_from < t_first {
+        // The earliest time a clean window may start after the previous disturbance.
+        let clear_from = out
+            .last()
+            .map(|d: &Disturbance| d.end_s.unwrap_or(d.start_s) + cfg.recovery_allowance_s);
+        let (prefault, prefault_from, problem) = if clear_from.is_some_and(|c| pf_from < c) {
+            // Part of the previous disturbance's chain.
+            let head = chain_head.unwrap_or(out.len() - 1);
+            let inherited = out[head].prefault;
+            let problem = match inherited {
+                Some(_) => None,
+                None => Some(format!(
+                    "no clean pre-fault window since disturbance #{head}, whose own references are missing: {}",
+                    out[head].prefault_problem.clone().unwrap_or_default()
+                )),
+            };
+            (inherited, Some(head), problem)
+        } else if pf_from < t_first {
+            chain_head = Some(out.len());
             (
+                None,
                 None,
                 Some(format!(
                     "the recording has {:.3} s before the disturbance; the pre-fault window needs {:.3} s",
@@ -370,44 +506,51 @@ pub fn detect_disturbances(
                     cfg.prefault_window_s + cfg.prefault_guard_s
                 )),
             )
-        } else if out
-            .last()
-            .and_then(|d: &Disturbance| d.end_s)
-            .is_some_and(|e| e > pf_from)
-        {
-            (
-                None,
-                Some("the previous disturbance ended inside the pre-fault window".to_string()),
-            )
         } else {
-            let vap = mean_of(&v, s, pf_from, pf_to).unwrap_or(f64::NAN);
-            let pf = Prefault {
-                from_s: pf_from,
-                to_s: pf_to,
-                v_pu: vap,
-                v1_pu: mean_between(s, Quantity::V1, pf_from, pf_to).unwrap_or(f64::NAN),
-                p_pu: mean_between(s, Quantity::P, pf_from, pf_to),
-                q_pu: mean_between(s, Quantity::Q, pf_from, pf_to),
-                ip_pu: mean_between(s, Quantity::Ip, pf_from, pf_to),
-                iq_pu: mean_between(s, Quantity::Iq, pf_from, pf_to),
-                iq2_pu: mean_between(s, Quantity::Iq2, pf_from, pf_to),
-                v2_pu: mean_between(s, Quantity::V2, pf_from, pf_to),
-            };
-            (Some(pf), None)
+            chain_head = Some(out.len());
+            (Some(prefault_means(s, &v, pf_from, pf_to)), None, None)
+        };
+        // Inception and clearance from the waveform deviation: the threshold
+        // sits above what the pre-fault window shows (noise, harmonics that
+        // are not periodic, fractional windows).
+        let (inception, clearance) = match (dev, prefault) {
+            (Some(dev), Some(pf)) => {
+                let base = {
+                    let a = s.index_at(pf.from_s);
+                    let b = s.index_at(pf.to_s).min(s.len());
+                    dev[a.min(b)..b]
+                        .iter()
+                        .copied()
+                        .filter(|x| x.is_finite())
+                        .fold(0.0, f64::max)
+                };
+                let thr = 2.0 * base + 0.02;
+                let floor = out.last().and_then(|d| d.end_s).unwrap_or(t_first);
+                let inc = first_deviation(s, dev, (start - 1.25 * cycle).max(floor), start, thr);
+                let clr = match (inc, x.end) {
+                    (Some(i), Some(e)) => clearance(s, dev, i, e, cycle, thr),
+                    _ => None,
+                };
+                (inc, clr)
+            }
+            _ => (None, None),
         };
         out.push(Disturbance {
-            kind,
+            kind: x.kind,
             start_s: start,
-            end_s: end,
-            end_confirmed: confirmed,
-            extreme_pu: extreme,
-            extreme_at_s: extreme_at,
+            end_s: x.end,
+            end_confirmed: x.confirmed,
+            extreme_pu: x.extreme,
+            extreme_at_s: x.extreme_at,
             balance,
             unbalance_ratio: ratio,
             settled_s: settled,
             residual,
             prefault,
+            prefault_from,
             prefault_problem: problem,
+            inception_s: inception,
+            clearance_s: clearance,
         });
     }
     Ok(out)

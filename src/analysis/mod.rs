@@ -19,6 +19,7 @@ pub mod phasor;
 pub mod sequence;
 
 use crate::error::InputError;
+pub use crate::model::PhaseOrder;
 use crate::model::{
     Block, ChannelKey, Connection, FrameSink, Ratings, RecordingInfo, RecordingKind, N_KEYS,
 };
@@ -63,9 +64,13 @@ pub enum Quantity {
     IMax,
     /// Unit status (1 connected, 0 open); lowest value within each point.
     Status,
+    /// Waveforms: largest `|x[n] − x[n−N]|` of the voltage channels since the
+    /// previous point (pu): how far the waveform left the sinusoid of one
+    /// cycle before. Zero in steady state; marks inception and clearance.
+    WaveDeviation,
 }
 
-pub const N_Q: usize = 18;
+pub const N_Q: usize = 19;
 
 impl Quantity {
     pub const ALL: [Quantity; N_Q] = [
@@ -87,6 +92,7 @@ impl Quantity {
         Quantity::I2,
         Quantity::IMax,
         Quantity::Status,
+        Quantity::WaveDeviation,
     ];
     pub fn name(self) -> &'static str {
         match self {
@@ -108,6 +114,7 @@ impl Quantity {
             Quantity::I2 => "i2",
             Quantity::IMax => "i_max",
             Quantity::Status => "status",
+            Quantity::WaveDeviation => "wave_deviation",
         }
     }
 }
@@ -198,7 +205,16 @@ pub struct AnalysisSettings {
     pub ratings: Option<Ratings>,
     pub frequency_hz: f64,
     pub points_per_cycle: usize,
+    pub phase_order: PhaseOrder,
 }
+
+/// Largest accepted samples per nominal cycle: the one-cycle window holds
+/// this many samples per channel (2 MHz at 50 Hz).
+pub const MAX_SAMPLES_PER_CYCLE: f64 = 40_000.0;
+
+/// Nominal cycles at the start of a recording over which the phase rotation
+/// is checked (`|V2| > |V1|` means A-C-B).
+const ROTATION_CHECK_CYCLES: f64 = 5.0;
 
 /// Streaming analysis of one recording.
 pub struct Analyzer {
@@ -207,19 +223,31 @@ pub struct Analyzer {
     dft: Option<SlidingDft>,
     has_current: bool,
     has_status: bool,
+    /// The residual voltage `vn = va + vb + vc` is mapped (phase-to-phase
+    /// recordings): the zero sequence becomes observable.
+    has_residual: bool,
+    /// A phase-to-phase voltage that is not mapped and is derived from the
+    /// other two (`vab + vbc + vca = 0`).
+    derived_voltage: Option<usize>,
+    phase_order: PhaseOrder,
     /// Per-unit factor per channel key.
     scale: [f64; N_KEYS],
     decimation: usize,
     since_out: usize,
     status_min: f64,
+    deviation_max: f64,
     u1: Option<Complex64>,
     u2: Option<Complex64>,
     series: Series,
-    xbuf: [f64; 6],
+    xbuf: [f64; 7],
+    frequency_hz: f64,
+    /// The first unusable value (channel, time), reported by `finish`.
+    problem: Option<(String, f64)>,
 }
 
 /// Result of analysing one recording.
 pub struct Analysed {
+    /// Facts of the recording, with the analysis' notes added.
     pub info: RecordingInfo,
     pub series: Series,
     /// Samples in one DFT window (0 for RMS-level recordings).
@@ -264,6 +292,9 @@ impl Analyzer {
                     scale[k.index()] = 1.0 / vbase;
                 }
             }
+            if unit_of(ChannelKey::Vn) == Some("V") {
+                scale[ChannelKey::Vn.index()] = 1.0 / r.voltage_base_phase_v();
+            }
             for k in [ChannelKey::Ia, ChannelKey::Ib, ChannelKey::Ic] {
                 if unit_of(k) == Some("A") {
                     scale[k.index()] = 1.0 / r.current_base_a();
@@ -280,6 +311,17 @@ impl Analyzer {
                 if !(fs > 0.0) || !fs.is_finite() {
                     return Err(InputError::new(path, "sample rate could not be determined")
                         .hint("the time column needs at least two increasing values"));
+                }
+                if fs > MAX_SAMPLES_PER_CYCLE * settings.frequency_hz {
+                    return Err(InputError::new(
+                        path,
+                        format!(
+                            "waveforms sampled at {fs:.4e} Hz give {:.0} samples per {} Hz cycle; at most {MAX_SAMPLES_PER_CYCLE} are accepted",
+                            fs / settings.frequency_hz,
+                            settings.frequency_hz
+                        ),
+                    )
+                    .hint("check the time column's unit (seconds) or the sampling rate, or decimate the recording"));
                 }
                 if fs < 8.0 * settings.frequency_hz {
                     return Err(InputError::new(
@@ -299,8 +341,9 @@ impl Analyzer {
                     Quantity::Vab,
                     Quantity::Vbc,
                     Quantity::Vca,
+                    Quantity::WaveDeviation,
                 ]);
-                if info.connection == Connection::PhaseToNeutral {
+                if info.connection == Connection::PhaseToNeutral || info.has(ChannelKey::Vn) {
                     present.push(Quantity::V0);
                 }
                 if has_current {
@@ -315,7 +358,7 @@ impl Analyzer {
                         Quantity::IMax,
                     ]);
                 }
-                let chans = if has_current { 6 } else { 3 };
+                let chans = if has_current { 6 } else { 3 } + info.has(ChannelKey::Vn) as usize;
                 let dft = SlidingDft::new(fs, settings.frequency_hz, chans);
                 let dec = ((fs / (settings.frequency_hz * settings.points_per_cycle.max(1) as f64))
                     .floor() as usize)
@@ -339,30 +382,98 @@ impl Analyzer {
         if has_status {
             present.push(Quantity::Status);
         }
+        let derived_voltage = if info.kind == RecordingKind::Waveform
+            && info.connection == Connection::PhaseToPhase
+        {
+            [ChannelKey::Va, ChannelKey::Vb, ChannelKey::Vc]
+                .iter()
+                .position(|k| !info.has(*k))
+        } else {
+            None
+        };
         Ok(Analyzer {
             kind: info.kind,
             connection: info.connection,
             dft,
             has_current,
             has_status,
+            has_residual: info.has(ChannelKey::Vn),
+            derived_voltage,
+            phase_order: settings.phase_order,
             scale,
             decimation,
             since_out: 0,
             status_min: f64::INFINITY,
+            deviation_max: 0.0,
             u1: None,
             u2: None,
             series: Series::new(&present),
-            xbuf: [0.0; 6],
+            xbuf: [0.0; 7],
+            frequency_hz: settings.frequency_hz,
+            problem: None,
         })
     }
 
-    pub fn finish(self, info: RecordingInfo) -> Analysed {
-        Analysed {
+    /// Ends the analysis: checks what can only be checked on the whole
+    /// stream (unusable values, phase rotation) and adds the analysis' notes
+    /// to the recording facts.
+    pub fn finish(self, mut info: RecordingInfo) -> Result<Analysed, InputError> {
+        let path = Path::new(&info.path).to_path_buf();
+        if let Some((what, t)) = &self.problem {
+            return Err(InputError::new(
+                &path,
+                format!("{what} at {t:.6} s is not a finite number after scaling"),
+            )
+            .field(what.clone())
+            .hint("check the channel's scaling (COMTRADE a, b and ratios) and units"));
+        }
+        if self.kind == RecordingKind::Waveform {
+            if let Some(k) = self.derived_voltage {
+                let names = ["vab (va)", "vbc (vb)", "vca (vc)"];
+                info.notes.push(format!(
+                    "{} is not recorded and is derived as minus the sum of the other two phase-to-phase voltages",
+                    names[k]
+                ));
+            }
+            if self.phase_order == PhaseOrder::Acb {
+                info.notes.push(
+                    "phase_order acb: the phases rotate A-C-B, so b and c are swapped for voltages and currents"
+                        .into(),
+                );
+            }
+            let s = &self.series;
+            if let (Some(v1), Some(v2), Some(&t0)) =
+                (s.get(Quantity::V1), s.get(Quantity::V2), s.t.first())
+            {
+                let n = s.index_at(t0 + ROTATION_CHECK_CYCLES / self.frequency_hz);
+                let mean = |v: &[f64]| v[..n].iter().sum::<f64>() / n.max(1) as f64;
+                let (m1, m2) = (mean(v1), mean(v2));
+                if n > 0 && m1 + m2 > 0.05 && m2 > m1 {
+                    let ratio = m2 / m1.max(1e-12);
+                    let (msg, hint) = match self.phase_order {
+                        PhaseOrder::Abc => (
+                            format!(
+                                "the phases rotate A-C-B: before any disturbance |V2| = {m2:.3} pu exceeds |V1| = {m1:.3} pu (|V2|/|V1| = {ratio:.3})"
+                            ),
+                            "if the recording really rotates A-C-B, say phase_order: acb in the plan or test (or --phase-order acb); otherwise check which channels are mapped to b and c",
+                        ),
+                        PhaseOrder::Acb => (
+                            format!(
+                                "phase_order acb is set, but after swapping b and c |V2| = {m2:.3} pu exceeds |V1| = {m1:.3} pu (|V2|/|V1| = {ratio:.3}): the recording rotates A-B-C"
+                            ),
+                            "remove phase_order: acb for this recording",
+                        ),
+                    };
+                    return Err(InputError::new(&path, msg).hint(hint));
+                }
+            }
+        }
+        Ok(Analysed {
             info,
             dft_window: self.dft.as_ref().map(|d| d.window()).unwrap_or(0),
             decimation: self.decimation,
             series: self.series,
-        }
+        })
     }
 
     fn emit_waveform(&mut self, t: f64) {
@@ -389,16 +500,24 @@ impl Analyzer {
                 let (vab, vbc, vca) = (dft.phasor(0), dft.phasor(1), dft.phasor(2));
                 let [_, v1ab, v2ab] = sequence::sequences(vab, vbc, vca);
                 let (v1, v2) = sequence::from_line_sequences(v1ab, v2ab);
-                let [a, b, c] = sequence::phases(Complex64::new(0.0, 0.0), v1, v2);
+                // With the residual voltage vn = 3·v0 the phases are known;
+                // without it they assume V0 = 0 (and are not used by rules).
+                let v0 = self
+                    .has_residual
+                    .then(|| dft.phasor(if self.has_current { 6 } else { 3 }) / 3.0);
+                let [a, b, c] = sequence::phases(v0.unwrap_or(Complex64::new(0.0, 0.0)), v1, v2);
                 (
                     v1,
                     v2,
-                    None,
+                    v0,
                     [a.norm(), b.norm(), c.norm()],
                     [vab.norm(), vbc.norm(), vca.norm()],
                 )
             }
         };
+        if !v1.norm().is_finite() && self.problem.is_none() {
+            self.problem = Some(("the voltage phasor (values too large)".into(), t));
+        }
         s.t.push(t);
         s.push(Quantity::V1, v1.norm());
         s.push(Quantity::V2, v2.norm());
@@ -444,6 +563,8 @@ impl Analyzer {
         if self.has_status {
             s.push(Quantity::Status, self.status_min);
         }
+        s.push(Quantity::WaveDeviation, self.deviation_max);
+        self.deviation_max = 0.0;
     }
 }
 
@@ -464,13 +585,53 @@ impl FrameSink for Analyzer {
                 let nch = if self.has_current { 6 } else { 3 };
                 let cols: Vec<&[f64]> = keys[..nch].iter().map(|k| ch(*k).unwrap_or(&[])).collect();
                 let scales: Vec<f64> = keys[..nch].iter().map(|k| self.scale[k.index()]).collect();
+                let residual = ch(ChannelKey::Vn).filter(|_| self.has_residual);
+                let vn_scale = self.scale[ChannelKey::Vn.index()];
+                let nd = nch + residual.is_some() as usize;
+                let line = self.connection == Connection::PhaseToPhase;
+                let acb = self.phase_order == PhaseOrder::Acb;
                 for i in 0..block.len() {
                     for c in 0..nch {
-                        self.xbuf[c] = cols[c][i] * scales[c];
+                        if Some(c) != self.derived_voltage {
+                            self.xbuf[c] = cols[c][i] * scales[c];
+                        }
+                    }
+                    if let Some(k) = self.derived_voltage {
+                        self.xbuf[k] = -(self.xbuf[(k + 1) % 3] + self.xbuf[(k + 2) % 3]);
+                    }
+                    if acb {
+                        if line {
+                            // Swapping b and c: v_ab → −v_ca, v_bc → −v_bc, v_ca → −v_ab.
+                            let (ab, bc, ca) = (self.xbuf[0], self.xbuf[1], self.xbuf[2]);
+                            self.xbuf[0] = -ca;
+                            self.xbuf[1] = -bc;
+                            self.xbuf[2] = -ab;
+                        } else {
+                            self.xbuf.swap(1, 2);
+                        }
+                        if nch == 6 {
+                            self.xbuf.swap(4, 5);
+                        }
+                    }
+                    if let Some(r) = residual {
+                        self.xbuf[nch] = r[i] * vn_scale;
                     }
                     let xb = self.xbuf;
+                    if xb[..nd].iter().any(|x| !x.is_finite()) && self.problem.is_none() {
+                        let c = xb[..nd].iter().position(|x| !x.is_finite()).unwrap_or(0);
+                        let name = if c < nch { keys[c].name() } else { "vn" };
+                        self.problem = Some((format!("channel {name}"), block.time[i]));
+                    }
                     if let Some(d) = &mut self.dft {
-                        d.push(&xb[..nch]);
+                        if d.ready() {
+                            for c in 0..3 {
+                                let dv = (xb[c] - d.oldest(c)).abs();
+                                if dv > self.deviation_max {
+                                    self.deviation_max = dv;
+                                }
+                            }
+                        }
+                        d.push(&xb[..nd]);
                     }
                     if let Some(st) = status {
                         self.status_min = self.status_min.min(st[i]);
@@ -543,5 +704,5 @@ pub fn analyse(
 ) -> Result<Analysed, InputError> {
     let mut analyzer = Analyzer::new(source.info(), settings)?;
     let info = source.stream(&mut analyzer)?;
-    Ok(analyzer.finish(info))
+    analyzer.finish(info)
 }

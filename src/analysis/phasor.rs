@@ -90,6 +90,13 @@ impl SlidingDft {
         self.k
     }
 
+    /// The oldest sample of channel `c` in the window: before the next
+    /// [`push`](Self::push), the sample one window length earlier.
+    #[inline]
+    pub fn oldest(&self, c: usize) -> f64 {
+        self.ring[self.pos * self.chans + c]
+    }
+
     /// True once the window is full and phasors are valid.
     pub fn ready(&self) -> bool {
         self.n >= self.k as u64

@@ -215,6 +215,7 @@ pub fn run_test(
         ratings: ratings.rated_kv.is_finite().then_some(*ratings),
         frequency_hz: ratings.frequency_hz,
         points_per_cycle: POINTS_PER_CYCLE,
+        phase_order: test.map.phase_order.unwrap_or_default(),
     };
     let analysed = analyse(source, &settings)?;
     let det = engine::detection_settings(&rules.rules, ratings.frequency_hz);

@@ -97,6 +97,7 @@ pub fn run(args: &InspectArgs) -> anyhow::Result<u8> {
             }),
             frequency_hz: f,
             points_per_cycle: POINTS_PER_CYCLE,
+            phase_order: map.phase_order.unwrap_or_default(),
         };
         let analysed = analyse(source, &settings)?;
         let mut det = DetectionSettings::defaults(f);

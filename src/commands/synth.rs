@@ -38,6 +38,31 @@ pub fn spec_from_args(a: &SynthArgs) -> Result<SynthSpec, UsageError> {
         }
         None => None,
     };
+    let mut steps = Vec::new();
+    if let Some(list) = &a.steps {
+        for item in list.split(',').filter(|x| !x.trim().is_empty()) {
+            let bad = || {
+                UsageError(format!(
+                    "--steps item '{item}': expected TIME:PU, e.g. 1.0:0.2"
+                ))
+            };
+            let (t, v) = item.split_once(':').ok_or_else(bad)?;
+            let t: f64 = t.trim().parse().map_err(|_| bad())?;
+            let v: f64 = v.trim().parse().map_err(|_| bad())?;
+            if !(t.is_finite() && t >= 0.0 && v.is_finite() && v >= 0.0) {
+                return Err(bad());
+            }
+            if steps.last().is_some_and(|(p, _): &(f64, f64)| t <= *p) {
+                return Err(UsageError(format!("--steps '{list}': times must increase")));
+            }
+            steps.push((t, v));
+        }
+        if steps.len() < 2 {
+            return Err(UsageError(format!(
+                "--steps '{list}': give at least a fault step and the recovery step"
+            )));
+        }
+    }
     let mut harmonics = Vec::new();
     if let Some(h) = &a.harmonics {
         for item in h.split(',').filter(|x| !x.trim().is_empty()) {
@@ -142,6 +167,8 @@ pub fn spec_from_args(a: &SynthArgs) -> Result<SynthSpec, UsageError> {
         decimal_comma: a.decimal_comma,
         time_format,
         status_column: a.status,
+        steps,
+        phase_order: a.phase_order,
     };
     spec.validate().map_err(UsageError)?;
     Ok(spec)

@@ -605,7 +605,8 @@ impl CsvSource {
             }
         }
         let keys: Vec<ChannelKey> = mapped.iter().map(|(k, _)| *k).collect();
-        check_channel_set(path, &keys)?;
+        let connection = map.connection.unwrap_or(Connection::PhaseToNeutral);
+        check_channel_set(path, &keys, connection)?;
         let kind = if keys.contains(&ChannelKey::VPos) {
             RecordingKind::RmsLevel
         } else {
@@ -616,7 +617,6 @@ impl CsvSource {
             RecordingKind::RmsLevel => VoltageUnit::Pu,
         });
         let cu = map.current_unit.unwrap_or(CurrentUnit::A);
-        let connection = map.connection.unwrap_or(Connection::PhaseToNeutral);
 
         let mut col_slot = vec![SKIP; ncols];
         col_slot[time_col] = TIME;
@@ -625,7 +625,7 @@ impl CsvSource {
         let mut slot_keys = Vec::new();
         for (slot, (key, col)) in mapped.iter().enumerate() {
             col_slot[*col] = slot as u16;
-            let (unit, factor, canonical): (String, f64, &'static str) = if key.is_phase_voltage() {
+            let (unit, factor, canonical): (String, f64, &'static str) = if key.is_voltage() {
                 (
                     vu.label().into(),
                     vu.factor(),

@@ -9,7 +9,9 @@ pub mod comtrade;
 pub mod csv;
 
 use crate::error::InputError;
-use crate::model::{ChannelKey, Connection, CurrentUnit, FrameSink, RecordingInfo, VoltageUnit};
+use crate::model::{
+    ChannelKey, Connection, CurrentUnit, FrameSink, PhaseOrder, RecordingInfo, VoltageUnit,
+};
 use std::path::Path;
 
 /// How file columns map to the model's channels, and their units.
@@ -22,6 +24,8 @@ pub struct ChannelMap {
     pub voltage_unit: Option<VoltageUnit>,
     pub current_unit: Option<CurrentUnit>,
     pub connection: Option<Connection>,
+    /// Phase rotation of the channels (A-B-C unless said otherwise).
+    pub phase_order: Option<PhaseOrder>,
 }
 
 impl ChannelMap {
@@ -85,7 +89,13 @@ pub fn open(
 }
 
 /// Channel keys that the model checks for completeness, with what to say.
-pub(crate) fn check_channel_set(path: &Path, present: &[ChannelKey]) -> Result<(), InputError> {
+/// Phase-to-phase voltages may leave one of the three out (it is derived:
+/// `vab + vbc + vca = 0`).
+pub(crate) fn check_channel_set(
+    path: &Path,
+    present: &[ChannelKey],
+    connection: Connection,
+) -> Result<(), InputError> {
     let has = |k: ChannelKey| present.contains(&k);
     let phase_v = [ChannelKey::Va, ChannelKey::Vb, ChannelKey::Vc];
     let phase_i = [ChannelKey::Ia, ChannelKey::Ib, ChannelKey::Ic];
@@ -98,7 +108,15 @@ pub(crate) fn check_channel_set(path: &Path, present: &[ChannelKey]) -> Result<(
             .collect::<Vec<_>>()
             .join(", ")
     };
-    if nv > 0 && nv < 3 {
+    let line = connection == Connection::PhaseToPhase;
+    if has(ChannelKey::Vn) && !(line && nv >= 2) {
+        return Err(InputError::new(
+            path,
+            "the residual voltage vn is mapped, but it is only used with phase-to-phase voltages",
+        )
+        .hint("map vn together with phase-to-phase voltages (voltage connection phase_to_phase), or remove it"));
+    }
+    if nv == 1 || (nv == 2 && !line) {
         return Err(InputError::new(
             path,
             format!(
@@ -106,7 +124,7 @@ pub(crate) fn check_channel_set(path: &Path, present: &[ChannelKey]) -> Result<(
                 missing(&phase_v)
             ),
         )
-        .hint("map all three with --map va=COL --map vb=COL --map vc=COL"));
+        .hint("map all three with --map va=COL --map vb=COL --map vc=COL (two suffice for phase-to-phase voltages)"));
     }
     if ni > 0 && ni < 3 {
         return Err(InputError::new(
@@ -118,7 +136,7 @@ pub(crate) fn check_channel_set(path: &Path, present: &[ChannelKey]) -> Result<(
         )
         .hint("map all three with --map ia=COL --map ib=COL --map ic=COL, or none"));
     }
-    if nv == 3 && has(ChannelKey::VPos) {
+    if nv >= 2 && has(ChannelKey::VPos) {
         return Err(InputError::new(
             path,
             "both phase voltages and v_pos are mapped; a recording is either waveforms or RMS-level",

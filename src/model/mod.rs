@@ -26,10 +26,14 @@ pub enum ChannelKey {
     Ip,
     Iq,
     Status,
+    /// Residual voltage `va + vb + vc` (`3·v0`, e.g. a broken-delta winding
+    /// or a neutral-displacement channel), for phase-to-phase recordings: it
+    /// makes the zero sequence and so the phase-to-neutral voltages observable.
+    Vn,
 }
 
 /// Number of [`ChannelKey`] variants; frames are arrays indexed by key.
-pub const N_KEYS: usize = 12;
+pub const N_KEYS: usize = 13;
 
 impl ChannelKey {
     pub const ALL: [ChannelKey; N_KEYS] = [
@@ -45,6 +49,7 @@ impl ChannelKey {
         ChannelKey::Ip,
         ChannelKey::Iq,
         ChannelKey::Status,
+        ChannelKey::Vn,
     ];
 
     /// The name used in `--map KEY=COLUMN` and in plan `channels` blocks.
@@ -62,6 +67,7 @@ impl ChannelKey {
             ChannelKey::Ip => "ip",
             ChannelKey::Iq => "iq",
             ChannelKey::Status => "status",
+            ChannelKey::Vn => "vn",
         }
     }
 
@@ -78,6 +84,11 @@ impl ChannelKey {
 
     pub fn is_phase_voltage(self) -> bool {
         matches!(self, ChannelKey::Va | ChannelKey::Vb | ChannelKey::Vc)
+    }
+
+    /// Phase voltages and the residual voltage: the voltage unit applies.
+    pub fn is_voltage(self) -> bool {
+        self.is_phase_voltage() || self == ChannelKey::Vn
     }
 
     pub fn is_phase_current(self) -> bool {
@@ -193,6 +204,37 @@ impl Connection {
         match self {
             Connection::PhaseToNeutral => "phase_to_neutral",
             Connection::PhaseToPhase => "phase_to_phase",
+        }
+    }
+}
+
+/// Phase rotation of the recorded channels.
+#[derive(
+    Clone,
+    Copy,
+    Debug,
+    PartialEq,
+    Eq,
+    Default,
+    Serialize,
+    serde::Deserialize,
+    schemars::JsonSchema,
+    clap::ValueEnum,
+)]
+#[serde(rename_all = "snake_case")]
+pub enum PhaseOrder {
+    /// Phases rotate a, b, c (positive sequence a → b → c).
+    #[default]
+    Abc,
+    /// Phases rotate a, c, b: b and c are swapped for voltages and currents.
+    Acb,
+}
+
+impl PhaseOrder {
+    pub fn name(self) -> &'static str {
+        match self {
+            PhaseOrder::Abc => "abc",
+            PhaseOrder::Acb => "acb",
         }
     }
 }

@@ -54,7 +54,7 @@ fn zone_boundary(spec: &CheckSpec) -> Option<(Vec<[f64; 2]>, Bound)> {
     match spec {
         CheckSpec::Envelope(e) => Some((e.points.clone(), e.bound)),
         CheckSpec::DurationTable(tb) => Some((
-            table_boundary(&tb.rows, tb.side),
+            crate::rules::zone::table_boundary(&tb.rows, tb.side),
             if tb.side == Side::Below {
                 Bound::Lower
             } else {
@@ -63,27 +63,6 @@ fn zone_boundary(spec: &CheckSpec) -> Option<(Vec<[f64; 2]>, Bound)> {
         )),
         _ => None,
     }
-}
-
-/// The staircase boundary equivalent to a duration table (continuous mode).
-pub fn table_boundary(rows: &[crate::rules::spec::TableRow], side: Side) -> Vec<[f64; 2]> {
-    let mut ds: Vec<f64> = rows.iter().map(|r| r.max_s).collect();
-    ds.sort_by(f64::total_cmp);
-    ds.dedup();
-    let level = |tau: f64| {
-        let lv = rows.iter().filter(|r| r.max_s <= tau).map(|r| r.beyond_pu);
-        match side {
-            Side::Below => lv.fold(0.0, f64::max),
-            Side::Above => lv.fold(f64::INFINITY, f64::min),
-        }
-    };
-    let mut pts = vec![[0.0, level(-1.0)]];
-    for d in ds {
-        let before = pts.last().map_or(0.0, |p| p[1]);
-        pts.push([d, before]);
-        pts.push([d, level(d)]);
-    }
-    pts
 }
 
 fn marks_for(d: &[Disturbance], k: Option<usize>, t_hi: f64) -> Vec<VLine> {

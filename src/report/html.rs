@@ -23,6 +23,7 @@ pub struct CheckRow {
     pub disturbance: String,
     pub verdict: &'static str,
     pub class: &'static str,
+    pub reason: String,
     pub measured: String,
     pub limit: String,
     pub margin: String,
@@ -39,6 +40,8 @@ pub struct DistRow {
     pub extreme: String,
     pub balance: String,
     pub residual: String,
+    /// Inception and clearance (waveforms), and where the references come from.
+    pub edges: String,
 }
 
 pub struct TestView {
@@ -162,6 +165,21 @@ fn test_view(k: usize, t: &TestResult, figures: Vec<RenderedFigure>) -> TestView
                     (Some(v1), None) => format!("V1 {v1:.3} pu"),
                     _ => "–".into(),
                 },
+                edges: {
+                    let mut e = Vec::new();
+                    if let Some(i) = d.inception_s {
+                        e.push(format!("inception {i:.4} s"));
+                    }
+                    if let Some(c) = d.clearance_s {
+                        e.push(format!("clearance {c:.4} s"));
+                    }
+                    match (d.prefault_from, d.prefault_window_s) {
+                        (Some(k), _) => e.push(format!("references of disturbance #{k}")),
+                        (None, Some([a, b])) => e.push(format!("pre-fault {a:.3}–{b:.3} s")),
+                        _ => e.push("no pre-fault window".into()),
+                    }
+                    e.join("; ")
+                },
             })
             .collect(),
         trip: match (t.trip.tripped, t.trip.time_s) {
@@ -202,6 +220,10 @@ fn test_view(k: usize, t: &TestResult, figures: Vec<RenderedFigure>) -> TestView
                     .unwrap_or_else(|| "–".into()),
                 verdict: label(c.verdict),
                 class: class(c.verdict),
+                reason: c
+                    .reason
+                    .map(|r| r.name().replace('_', " "))
+                    .unwrap_or_default(),
                 measured: fmt_value(c.measured, &c.unit),
                 limit: fmt_value(c.limit, &c.unit),
                 margin: fmt_value(c.margin, &c.unit),

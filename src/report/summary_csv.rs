@@ -4,7 +4,8 @@ use crate::rules::result::Results;
 use anyhow::Context;
 use std::path::Path;
 
-pub const HEADER: [&str; 14] = [
+/// Columns; later versions add columns at the end only.
+pub const HEADER: [&str; 15] = [
     "test",
     "recording",
     "test_verdict",
@@ -19,6 +20,7 @@ pub const HEADER: [&str; 14] = [
     "at_s",
     "settling_time_s",
     "detail",
+    "reason",
 ];
 
 pub fn write(results: &Results, path: &Path) -> anyhow::Result<()> {
@@ -47,6 +49,7 @@ pub fn write(results: &Results, path: &Path) -> anyhow::Result<()> {
                 &num(c.at_s),
                 &num(c.settling_time_s),
                 c.detail.as_str(),
+                c.reason.map(|r| r.name()).unwrap_or(""),
             ])?;
         }
     }

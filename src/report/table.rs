@@ -25,7 +25,7 @@ pub fn render(results: &Results, tty: bool) -> String {
         t.set_content_arrangement(ContentArrangement::Disabled);
     }
     t.set_header(vec![
-        "test", "check", "dist.", "verdict", "measured", "limit", "margin",
+        "test", "check", "dist.", "verdict", "reason", "measured", "limit", "margin",
     ]);
     for test in &results.tests {
         for (k, c) in test.checks.iter().enumerate() {
@@ -44,6 +44,7 @@ pub fn render(results: &Results, tty: bool) -> String {
                         .unwrap_or_else(|| "–".into()),
                 ),
                 verdict,
+                Cell::new(c.reason.map(|r| r.name()).unwrap_or("–")),
                 Cell::new(fmt_value(c.measured, &c.unit)),
                 Cell::new(fmt_value(c.limit, &c.unit)),
                 Cell::new(fmt_value(c.margin, &c.unit)),

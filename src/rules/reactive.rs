@@ -1,26 +1,34 @@
-//! Reactive current injection (domain reference §5).
+//! Reactive current injection (domain reference §5; decisions B.8 and D.12–15
+//! in docs/rules.md).
 //!
 //! `ΔV(t) = V(t) − V_pre` (positive or negative sequence), required extra
 //! current `ΔIq_req = −k·(|ΔV| − db)·sign(ΔV)` (offset dead band) or
 //! `−k·|ΔV|·sign(ΔV)` (full), zero inside the dead band; the total
-//! `Iq_pre + ΔIq_req` is limited to `±limit`. By default one required value
-//! comes from the mean `ΔV` over the quasi-steady part of the fault (from the
-//! settling time after the start to one nominal cycle before the end).
+//! `Iq_pre + ΔIq_req` is limited to `±limit`.
 //!
-//! * rise time: start → first time the measured `ΔIq` reaches 90 % of the
-//!   requirement (in its direction);
-//! * settling time: start → entry into the band `[req + lo, req + hi]`
-//!   (mirrored for a negative requirement: `lo` is always "less current than
-//!   required") for good, up to the end of the quasi-steady part;
-//! * margin: the smaller of the rise-time and settling-time margins, in s.
-//!
-//! With `follow: instantaneous` the requirement follows the voltage sample by
-//! sample; a step of the requirement later in the fault (larger than half the
-//! tolerance band) restarts a settling period, during which the band is not
-//! enforced.
+//! * **Segments** (`follow: settled`): where the voltage moves by more than
+//!   `segment_step_pu` and then holds for the settling time, a new
+//!   quasi-steady segment begins; each segment's requirement comes from the
+//!   mean `ΔV` over its settled part (from the settling time after its start
+//!   to one nominal cycle before its end, where the one-cycle window mixes
+//!   it with the next level).
+//! * **Rise time**: from the time reference (start or inception) to the
+//!   first time `ΔIq` reaches 90 % of the first segment's requirement, within
+//!   the first segment.
+//! * **Settling time**: per segment, from its start (the first from the time
+//!   reference) to the entry into the band `[r + s·lo, r + s·hi]` (`s` the
+//!   sign of the requirement `r`) for good, up to the end of its settled part.
+//! * `follow: instantaneous`: the requirement follows the voltage sample by
+//!   sample; the settling clock restarts whenever the one-cycle average of the
+//!   requirement has moved by more than the band's width.
+//! * A fault shorter than the settling time is judged on the rise time
+//!   alone, the requirement from the mean deviation between the rise-time
+//!   limit and one cycle before the end; shorter than the rise time it is
+//!   inconclusive.
+//! * Margin: the smallest of the rise-time and settling-time margins, in s.
 
-use super::result::{CheckResult, Verdict};
-use super::spec::{DeadBandMode, Follow, ReactiveCurrentSpec, Sequence};
+use super::result::{CheckResult, Reason, Segment, Verdict};
+use super::spec::{DeadBandMode, Follow, ReactiveCurrentSpec, Sequence, TimeFrom};
 
 /// Inputs of one reactive-current evaluation.
 pub struct ReactiveInput<'a> {
@@ -30,6 +38,8 @@ pub struct ReactiveInput<'a> {
     /// Reactive current of that sequence, pu.
     pub iq: &'a [f64],
     pub start_s: f64,
+    /// Waveform inception, where known.
+    pub inception_s: Option<f64>,
     /// Disturbance end (or the recording end when it never ended).
     pub end_s: f64,
     pub ended: bool,
@@ -67,6 +77,49 @@ fn mean_between(t: &[f64], x: &[f64], a: f64, b: f64) -> Option<f64> {
     (n > 0).then(|| s / n as f64)
 }
 
+/// Where a new quasi-steady level begins: the voltage moved by more than
+/// `step` from the current level and then stayed within `step` of its new
+/// level for `hold` (after the one-cycle ramp of the phasor).
+pub fn segment_starts(
+    t: &[f64],
+    v: &[f64],
+    from: f64,
+    until: f64,
+    step: f64,
+    hold: f64,
+    cycle: f64,
+) -> Vec<f64> {
+    let at = |x: f64| t.partition_point(|y| *y < x);
+    let mut out = vec![from];
+    let mut k = at(from + cycle);
+    if k >= t.len() || t[k] > until {
+        return out;
+    }
+    let mut level = v[k];
+    let stop = t.partition_point(|y| *y <= until);
+    while k < stop {
+        if v[k].is_finite() && (v[k] - level).abs() > step {
+            let tc = t[k];
+            let a = at(tc + cycle);
+            let b = t.partition_point(|y| *y <= tc + cycle + hold);
+            if a < stop && b <= stop && tc + cycle + hold <= until && a < b {
+                let new = v[a];
+                if v[a..b]
+                    .iter()
+                    .all(|x| x.is_finite() && (x - new).abs() <= step)
+                {
+                    out.push(tc);
+                    level = new;
+                    k = a;
+                    continue;
+                }
+            }
+        }
+        k += 1;
+    }
+    out
+}
+
 pub fn evaluate(
     spec: &ReactiveCurrentSpec,
     inp: &ReactiveInput<'_>,
@@ -76,22 +129,39 @@ pub fn evaluate(
         Sequence::Positive => "positive",
         Sequence::Negative => "negative",
     };
+    let sub = if spec.sequence == Sequence::Negative {
+        "2"
+    } else {
+        ""
+    };
     r.required_gain = Some(spec.gain);
     r.limit = Some(spec.rise_time_s);
+    r.reference_pu = Some(inp.iq_pre);
     let start = inp.start_s;
+    let (t_ref, ref_note) = match (spec.time_from, inp.inception_s) {
+        (TimeFrom::Start, _) => (start, String::new()),
+        (TimeFrom::Inception, Some(i)) => (i, format!(" (times from the inception at {i:.4} s)")),
+        (TimeFrom::Inception, None) => (
+            start,
+            " (no waveform inception known: times from the disturbance start)".to_string(),
+        ),
+    };
+    r.time_from_s = Some(t_ref);
     let data_end = inp.trip_s.map_or(inp.end_s, |tt| tt.min(inp.end_s));
     let duration = inp.end_s - start;
     if let Some(tt) = inp.trip_s {
-        if tt < start + spec.rise_time_s {
-            return r.verdict(
+        if tt < t_ref + spec.rise_time_s {
+            return r.decide(
                 Verdict::Inconclusive,
+                Reason::InsufficientData,
                 format!("the unit tripped at {tt:.3} s, before the rise time ended; the ride-through checks judge the trip"),
             );
         }
     }
     if duration < spec.rise_time_s {
-        return r.verdict(
+        return r.decide(
             Verdict::Inconclusive,
+            Reason::InsufficientData,
             format!(
                 "the disturbance lasted {:.1} ms, shorter than the required rise time {:.1} ms: the data cannot decide",
                 duration * 1e3,
@@ -99,61 +169,110 @@ pub fn evaluate(
             ),
         );
     }
-    // Quasi-steady part; for faults shorter than the settling time only the
-    // rise time is judged, with the requirement from the settled part.
-    let qs_end = data_end - inp.cycle_s;
-    let qs_start = start + spec.settling_time_s;
-    let full = qs_end > qs_start;
-    let (win_a, win_b) = if full {
-        (qs_start, qs_end)
+    let cycle = inp.cycle_s;
+    let qs_end = data_end - cycle;
+    let full = qs_end > t_ref + spec.settling_time_s;
+    // Segments: [start_j, end_j); the first starts at the time reference.
+    let starts = if full && spec.follow == Follow::Settled {
+        segment_starts(
+            inp.t,
+            inp.v,
+            t_ref,
+            data_end - cycle,
+            spec.segment_step_pu,
+            spec.settling_time_s,
+            cycle,
+        )
     } else {
-        (start + inp.cycle_s, qs_end)
+        vec![t_ref]
     };
-    let dv_mean = match mean_between(inp.t, inp.v, win_a, win_b) {
-        Some(v) => v - inp.v_pre,
-        None => {
-            return r.verdict(
-                Verdict::Inconclusive,
-                format!(
-                    "no settled part of the fault ({:.1} ms long) to take the voltage from",
-                    duration * 1e3
-                ),
-            )
-        }
-    };
-    let req_raw = required(spec, dv_mean);
-    if req_raw == 0.0 && spec.follow == Follow::Settled {
-        r.verdict = Verdict::NotApplicable;
-        r.measured = None;
-        r.detail = format!(
-            "the settled {seq}-sequence voltage deviation {:+.3} pu is inside the dead band ±{} pu: no extra reactive current is required",
-            dv_mean, spec.dead_band_pu
-        );
-        return r;
+    let bounds: Vec<(f64, f64)> = starts
+        .iter()
+        .enumerate()
+        .map(|(j, a)| (*a, starts.get(j + 1).copied().unwrap_or(data_end)))
+        .collect();
+    // Each segment's settled part and requirement.
+    struct Seg {
+        a: f64,
+        b: f64,
+        win: (f64, f64),
+        dv: f64,
+        raw: f64,
+        req: f64,
     }
-    let req = limited(spec, inp.iq_pre, req_raw);
-    let limited_note = if (req - req_raw).abs() > 1e-9 {
+    let mut segs: Vec<Seg> = Vec::new();
+    for (j, (a, b)) in bounds.iter().enumerate() {
+        let win = if full {
+            (a + spec.settling_time_s, b - cycle)
+        } else {
+            // Rise time only: the voltage between the rise-time limit and one
+            // cycle before the end (decision D.15).
+            (t_ref + spec.rise_time_s, qs_end)
+        };
+        let Some(vm) = mean_between(inp.t, inp.v, win.0, win.1) else {
+            if j == 0 {
+                return r.decide(
+                    Verdict::Inconclusive,
+                    Reason::InsufficientData,
+                    format!(
+                        "no settled part of the fault ({:.1} ms long) to take the voltage from",
+                        duration * 1e3
+                    ),
+                );
+            }
+            continue;
+        };
+        let dv = vm - inp.v_pre;
+        let raw = required(spec, dv);
+        segs.push(Seg {
+            a: *a,
+            b: *b,
+            win,
+            dv,
+            raw,
+            req: limited(spec, inp.iq_pre, raw),
+        });
+    }
+    let first = &segs[0];
+    let any_required = segs.iter().any(|s| s.raw != 0.0);
+    if spec.follow == Follow::Settled && !any_required {
+        return r.decide(
+            Verdict::NotApplicable,
+            Reason::NotTriggered,
+            format!(
+                "the settled {seq}-sequence voltage deviation {:+.3} pu is inside the dead band ±{} pu: no extra reactive current is required",
+                first.dv, spec.dead_band_pu
+            ),
+        );
+    }
+    let limited_any = segs.iter().any(|s| (s.req - s.raw).abs() > 1e-9);
+    r.limited = Some(limited_any);
+    let limited_note = if (first.req - first.raw).abs() > 1e-9 {
         format!(
             " (k·ΔV asks {:+.3} pu; the total is limited to ±{} pu)",
-            req_raw, spec.limit_pu
+            first.raw, spec.limit_pu
         )
     } else {
         String::new()
     };
-    // Requirement at each sample.
+    // The requirement at each sample.
+    let seg_of = |x: f64| segs.iter().rposition(|s| s.a <= x).unwrap_or(0);
     let req_at = |k: usize| -> f64 {
         match spec.follow {
-            Follow::Settled => req,
+            Follow::Settled => segs[seg_of(inp.t[k])].req,
             Follow::Instantaneous => {
                 limited(spec, inp.iq_pre, required(spec, inp.v[k] - inp.v_pre))
             }
         }
     };
-    let dir = if req >= 0.0 { 1.0 } else { -1.0 };
+    // Rise time is judged on the first segment with a requirement.
+    let rise_seg = segs.iter().position(|s| s.req != 0.0).unwrap_or(0);
+    let rs = &segs[rise_seg];
+    let dir = if rs.req >= 0.0 { 1.0 } else { -1.0 };
+    let rise_from = if rise_seg == 0 { t_ref } else { rs.a };
     let [lo, hi] = spec.tolerance_pu;
-    let i0 = inp.t.partition_point(|x| *x < start);
-    let i_end = inp.t.partition_point(|x| *x <= data_end);
-    // Rise time: first 90 % crossing, interpolated between output points.
+    let i0 = inp.t.partition_point(|x| *x < rise_from);
+    let i_end = inp.t.partition_point(|x| *x <= rs.b.min(data_end));
     let mut rise_at: Option<f64> = None;
     for k in i0..i_end {
         let d = (inp.iq[k] - inp.iq_pre) * dir;
@@ -172,127 +291,252 @@ pub fn evaluate(
             break;
         }
     }
-    // Settling: after the last sample outside the band (up to the quasi-steady end).
-    let j_end = inp.t.partition_point(|x| *x <= qs_end);
     let in_band = |k: usize| -> bool {
-        let d = (inp.iq[k] - inp.iq_pre) * dir;
-        let need = req_at(k).abs();
+        let rq = req_at(k);
+        let s = if rq >= 0.0 { 1.0 } else { -1.0 };
+        let d = (inp.iq[k] - inp.iq_pre) * s;
+        let need = rq.abs();
         d.is_finite() && d >= need + lo && d <= need + hi
     };
-    // Following the voltage, each step of the requirement (larger than half
-    // the band width between two points) restarts a settling period: samples
-    // within the settling time after such a step are not held to the band.
-    let half_band = (hi - lo) / 2.0;
-    let mut exempt_until = f64::NEG_INFINITY;
-    let mut exempt = vec![false; j_end.saturating_sub(i0)];
-    if spec.follow == Follow::Instantaneous {
-        for k in i0.max(1)..j_end {
-            if (req_at(k) - req_at(k - 1)).abs() > half_band
-                && inp.t[k] > start + spec.settling_time_s
-            {
-                exempt_until = inp.t[k] + spec.settling_time_s;
-            }
-            exempt[k - i0] = inp.t[k] < exempt_until;
+    // Settling, segment by segment (instantaneous: one segment whose clock
+    // restarts where the averaged requirement moves by more than the band).
+    let settle_in = |from: f64, until: f64, exempt: &dyn Fn(usize) -> bool| -> Option<f64> {
+        let a = inp.t.partition_point(|x| *x < from);
+        let b = inp.t.partition_point(|x| *x <= until);
+        if a >= b {
+            return None;
         }
-    }
-    let settle_at: Option<f64> = if full {
-        match (i0..j_end).rev().find(|&k| !in_band(k) && !exempt[k - i0]) {
-            None => Some(start),
-            Some(k) if k + 1 < j_end => Some(inp.t[k + 1]),
+        match (a..b).rev().find(|&k| !in_band(k) && !exempt(k)) {
+            None => Some(from),
+            Some(k) if k + 1 < b => Some(inp.t[k + 1]),
             Some(_) => None,
         }
-    } else {
-        None
     };
-    let measured_pu = mean_between(inp.t, inp.iq, win_a, win_b).map(|m| m - inp.iq_pre);
-    r.required_pu = Some(req);
+    let mut seg_results: Vec<Segment> = Vec::new();
+    if full {
+        match spec.follow {
+            Follow::Settled => {
+                for (j, s) in segs.iter().enumerate() {
+                    let clock = if j == 0 { t_ref } else { s.a };
+                    let at = settle_in(clock, s.win.1, &|_| false);
+                    seg_results.push(Segment {
+                        start_s: s.a,
+                        end_s: s.b,
+                        settled_deviation_pu: s.dv,
+                        required_pu: s.req,
+                        settling_time_s: at.map(|x| x - clock),
+                        measured_pu: mean_between(inp.t, inp.iq, s.win.0, s.win.1)
+                            .map(|m| m - inp.iq_pre),
+                    });
+                }
+            }
+            Follow::Instantaneous => {
+                // One-cycle average of the requirement, and the restarts.
+                let a = inp.t.partition_point(|x| *x < t_ref);
+                let b = inp.t.partition_point(|x| *x <= qs_end);
+                let width = hi - lo;
+                let mut exempt_until = vec![f64::NEG_INFINITY; b.saturating_sub(a)];
+                let mut anchor: Option<f64> = None;
+                let mut until = f64::NEG_INFINITY;
+                let (mut sum, mut n, mut tail) = (0.0, 0usize, a);
+                for k in a..b {
+                    sum += req_at(k);
+                    n += 1;
+                    while inp.t[tail] < inp.t[k] - cycle {
+                        sum -= req_at(tail);
+                        n -= 1;
+                        tail += 1;
+                    }
+                    let avg = sum / n.max(1) as f64;
+                    if inp.t[k] >= t_ref + cycle {
+                        match anchor {
+                            None => anchor = Some(avg),
+                            Some(an) if (avg - an).abs() > width => {
+                                anchor = Some(avg);
+                                if inp.t[k] > t_ref + spec.settling_time_s {
+                                    // The move began up to one averaging
+                                    // window earlier: the clock restarts there.
+                                    until = inp.t[k] + spec.settling_time_s;
+                                    let from = inp.t.partition_point(|x| *x < inp.t[k] - cycle);
+                                    for j in from.max(a)..k {
+                                        exempt_until[j - a] = until;
+                                    }
+                                }
+                            }
+                            _ => {}
+                        }
+                    }
+                    exempt_until[k - a] = until;
+                }
+                let exempt = |k: usize| k >= a && k < b && inp.t[k] < exempt_until[k - a];
+                let at = settle_in(t_ref, qs_end, &exempt);
+                seg_results.push(Segment {
+                    start_s: t_ref,
+                    end_s: data_end,
+                    settled_deviation_pu: first.dv,
+                    required_pu: first.req,
+                    settling_time_s: at.map(|x| x - t_ref),
+                    measured_pu: mean_between(inp.t, inp.iq, first.win.0, first.win.1)
+                        .map(|m| m - inp.iq_pre),
+                });
+            }
+        }
+    }
+    // Measured gain: mean of s·ΔIq/(|ΔV| − db) (offset) or s·ΔIq/|ΔV|
+    // (full) over the settled parts (decision B.8).
+    let mut gsum = 0.0;
+    let mut gn = 0usize;
+    for s in &segs {
+        let a = inp.t.partition_point(|x| *x < s.win.0);
+        let b = inp.t.partition_point(|x| *x <= s.win.1);
+        for k in a..b {
+            let dv = inp.v[k] - inp.v_pre;
+            let eff = match spec.dead_band_mode {
+                DeadBandMode::Offset => dv.abs() - spec.dead_band_pu,
+                DeadBandMode::Full => dv.abs(),
+            };
+            let d_iq = inp.iq[k] - inp.iq_pre;
+            if eff > 0.01 && d_iq.is_finite() && dv.abs() > spec.dead_band_pu {
+                gsum += -dv.signum() * d_iq / eff;
+                gn += 1;
+            }
+        }
+    }
+    r.measured_gain = (gn > 0).then(|| gsum / gn as f64);
+    let measured_pu = mean_between(inp.t, inp.iq, first.win.0, first.win.1).map(|m| m - inp.iq_pre);
+    r.required_pu = Some(first.req);
     r.measured_pu = measured_pu;
-    let eff = match spec.dead_band_mode {
-        DeadBandMode::Offset => dv_mean.abs() - spec.dead_band_pu,
-        DeadBandMode::Full => dv_mean.abs(),
-    };
-    r.measured_gain = measured_pu.filter(|_| eff > 1e-6).map(|m| m * dir / eff);
-    let rise = rise_at.map(|a| a - start);
+    let rise = rise_at.map(|a| a - rise_from);
     r.measured = rise;
     r.at_s = rise_at;
-    r.settling_time_s = settle_at.map(|a| a - start);
+    let first_settle = seg_results.first().and_then(|s| s.settling_time_s);
+    r.settling_time_s = first_settle;
     let rise_margin = rise.map(|x| spec.rise_time_s - x);
-    let settle_margin = r.settling_time_s.map(|x| spec.settling_time_s - x);
-    r.margin = match (rise_margin, settle_margin, full) {
-        (Some(a), Some(b), true) => Some(a.min(b)),
-        (Some(a), _, false) => Some(a),
-        _ => None,
+    let settle_margins: Vec<Option<f64>> = seg_results
+        .iter()
+        .map(|s| s.settling_time_s.map(|x| spec.settling_time_s - x))
+        .collect();
+    r.margin = match rise_margin {
+        Some(a) if full => settle_margins
+            .iter()
+            .try_fold(a, |m, s| s.map(|s| m.min(s))),
+        Some(a) => Some(a),
+        None => None,
     };
-    let band = if dir > 0.0 {
-        format!("[{:+.3}, {:+.3}]", req + lo, req + hi)
-    } else {
-        format!("[{:+.3}, {:+.3}]", req - hi, req - lo)
+    let band = |req: f64| {
+        if req >= 0.0 {
+            format!("[{:+.3}, {:+.3}]", req + lo, req + hi)
+        } else {
+            format!("[{:+.3}, {:+.3}]", req - hi, req - lo)
+        }
     };
     let what = match spec.follow {
-        Follow::Settled => format!(
-            "required ΔIq{} {:+.3} pu from the settled deviation {:+.3} pu with k = {}{limited_note}",
-            if spec.sequence == Sequence::Negative { "2" } else { "" },
-            req,
-            dv_mean,
+        Follow::Settled if segs.len() > 1 => format!(
+            "{} quasi-steady segments, required ΔIq{sub} {} pu from their settled deviations {} pu with k = {}{limited_note}{ref_note}",
+            segs.len(),
+            segs.iter()
+                .map(|s| format!("{:+.3}", s.req))
+                .collect::<Vec<_>>()
+                .join(" / "),
+            segs.iter()
+                .map(|s| format!("{:+.3}", s.dv))
+                .collect::<Vec<_>>()
+                .join(" / "),
             spec.gain
         ),
+        Follow::Settled => format!(
+            "required ΔIq{sub} {:+.3} pu from the settled deviation {:+.3} pu with k = {}{limited_note}{ref_note}",
+            first.req, first.dv, spec.gain
+        ),
         Follow::Instantaneous => format!(
-            "requirement following the voltage with k = {} (settled value {:+.3} pu){limited_note}",
-            spec.gain, req
+            "requirement following the voltage with k = {} (settled value {:+.3} pu){limited_note}{ref_note}",
+            spec.gain, first.req
         ),
     };
+    if segs.len() > 1 {
+        r.segments = seg_results.clone();
+    }
     let measured_txt = measured_pu
-        .map(|m| format!("; measured ΔIq {m:+.3} pu"))
+        .map(|m| format!("; measured ΔIq{sub} {m:+.3} pu"))
         .unwrap_or_default();
     let Some(rise_v) = rise else {
-        return r.verdict(
+        return r.decide(
             Verdict::Fail,
+            Reason::NeverReached,
             format!(
-                "{what}: ΔIq never reached 90 % of it before {:.3} s{measured_txt}",
-                data_end
+                "{what}: ΔIq{sub} never reached 90 % of it before {:.3} s{measured_txt}",
+                rs.b.min(data_end)
             ),
         );
     };
     let rise_ok = rise_v <= spec.rise_time_s;
+    let rise_txt = format!(
+        "rise time {:.1} ms (limit {:.1} ms)",
+        rise_v * 1e3,
+        spec.rise_time_s * 1e3
+    );
     if !full {
-        let v = if rise_ok {
-            Verdict::Pass
+        let (v, reason) = if rise_ok {
+            (Verdict::Pass, Reason::WithinLimits)
         } else {
-            Verdict::Fail
+            (Verdict::Fail, Reason::RiseTooSlow)
         };
-        return r.verdict(
+        return r.decide(
             v,
+            reason,
             format!(
-                "{what}: rise time {:.1} ms (limit {:.1} ms); the fault was too short for the settling time of {:.1} ms to be judged{measured_txt}",
-                rise_v * 1e3,
-                spec.rise_time_s * 1e3,
+                "{what}: {rise_txt}; the fault was too short for the settling time of {:.1} ms to be judged{measured_txt}",
                 spec.settling_time_s * 1e3
             ),
         );
     }
-    match r.settling_time_s {
-        None => r.verdict(
-            Verdict::Fail,
-            format!(
-                "{what}: rise time {:.1} ms (limit {:.1} ms), but ΔIq did not stay inside the tolerance band {band} pu before {:.3} s{measured_txt}",
-                rise_v * 1e3,
-                spec.rise_time_s * 1e3,
-                qs_end
+    let settle_txt: Vec<String> = seg_results
+        .iter()
+        .zip(&segs)
+        .map(|(s, g)| match s.settling_time_s {
+            Some(st) => format!("settling into {} pu after {:.1} ms", band(g.req), st * 1e3),
+            None => format!(
+                "ΔIq{sub} did not stay inside {} pu before {:.3} s",
+                band(g.req),
+                g.win.1
             ),
-        ),
-        Some(st) => {
-            let settle_ok = st <= spec.settling_time_s;
-            let v = if rise_ok && settle_ok { Verdict::Pass } else { Verdict::Fail };
-            r.verdict(
-                v,
+        })
+        .collect();
+    let settle_txt = if seg_results.len() > 1 {
+        settle_txt
+            .iter()
+            .enumerate()
+            .map(|(j, s)| {
                 format!(
-                    "{what}: rise time {:.1} ms (limit {:.1} ms), settling into {band} pu after {:.1} ms (limit {:.1} ms){measured_txt}",
-                    rise_v * 1e3,
-                    spec.rise_time_s * 1e3,
-                    st * 1e3,
-                    spec.settling_time_s * 1e3
-                ),
-            )
-        }
-    }
+                    "segment {} from {:.3} s: {s}",
+                    j + 1,
+                    seg_results[j].start_s
+                )
+            })
+            .collect::<Vec<_>>()
+            .join("; ")
+    } else {
+        settle_txt.join("")
+    };
+    let never = seg_results.iter().any(|s| s.settling_time_s.is_none());
+    let late = seg_results
+        .iter()
+        .any(|s| s.settling_time_s.is_some_and(|x| x > spec.settling_time_s));
+    let (v, reason) = if !rise_ok {
+        (Verdict::Fail, Reason::RiseTooSlow)
+    } else if never {
+        (Verdict::Fail, Reason::NotSettled)
+    } else if late {
+        (Verdict::Fail, Reason::SettledTooLate)
+    } else {
+        (Verdict::Pass, Reason::WithinLimits)
+    };
+    r.decide(
+        v,
+        reason,
+        format!(
+            "{what}: {rise_txt}, {settle_txt} (settling limit {:.1} ms){measured_txt}",
+            spec.settling_time_s * 1e3
+        ),
+    )
 }

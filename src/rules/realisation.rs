@@ -1,8 +1,12 @@
 //! Test realisation: did the recording apply the test the plan says it did?
-//! (domain reference §5). A mismatch makes the test inconclusive as evidence;
-//! it is not a failure of the unit.
+//! (domain reference §5; decision D.16 in docs/rules.md). A mismatch makes
+//! the test inconclusive as evidence; it is not a failure of the unit.
+//!
+//! The residual is the extreme of the rule set's applicable voltage; the
+//! duration runs from inception to clearance on waveforms (disturbance end
+//! minus start at RMS level, where no waveform shows the edges).
 
-use super::result::{CheckResult, Verdict};
+use super::result::{CheckResult, Reason, Verdict};
 use crate::analysis::events::{Balance, Disturbance};
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
@@ -29,10 +33,10 @@ pub struct Expect {
     /// Accepted difference of the residual voltage, pu (default 0.05).
     #[serde(default = "d_res_tol")]
     pub residual_tolerance_pu: f64,
-    /// Accepted difference of the duration, s (default 0.03: the one-cycle
-    /// phasor smears both edges of a dip by up to one 50 Hz cycle).
-    #[serde(default = "d_dur_tol")]
-    pub duration_tolerance_s: f64,
+    /// Accepted difference of the duration, s (default: the larger of
+    /// 20 ms and 10 % of the planned duration).
+    #[serde(default)]
+    pub duration_tolerance_s: Option<f64>,
     /// Which disturbance of the recording is the test (default 0, the first).
     #[serde(default)]
     pub disturbance: usize,
@@ -41,9 +45,10 @@ pub struct Expect {
 fn d_res_tol() -> f64 {
     0.05
 }
-fn d_dur_tol() -> f64 {
-    0.03
-}
+
+/// The check's id and type in results.
+pub const ID: &str = "realisation";
+pub const TYPE: &str = "test_realisation";
 
 impl Expect {
     pub fn problems(&self) -> Vec<(&'static str, String)> {
@@ -64,7 +69,10 @@ impl Expect {
                 "residual_tolerance_pu must be in (0, 1)".into(),
             ));
         }
-        if !(self.duration_tolerance_s > 0.0 && self.duration_tolerance_s.is_finite()) {
+        if self
+            .duration_tolerance_s
+            .is_some_and(|d| !(d > 0.0 && d.is_finite()))
+        {
             out.push((
                 "duration_tolerance_s",
                 "duration_tolerance_s must be positive".into(),
@@ -72,19 +80,21 @@ impl Expect {
         }
         out
     }
+
+    /// The accepted duration difference for a planned duration.
+    pub fn duration_tolerance(&self, planned_s: f64) -> f64 {
+        self.duration_tolerance_s
+            .unwrap_or_else(|| (0.1 * planned_s).max(0.02))
+    }
 }
 
-/// `residual` is the mean applicable voltage over the settled part.
-pub fn evaluate(
-    e: &Expect,
-    disturbances: &[Disturbance],
-    residual: impl Fn(&Disturbance) -> Option<f64>,
-) -> CheckResult {
-    let mut r = CheckResult::new("realisation", "test_realisation", Some(e.disturbance), "pu");
+pub fn evaluate(e: &Expect, disturbances: &[Disturbance]) -> CheckResult {
+    let mut r = CheckResult::new(ID, TYPE, Some(e.disturbance), "pu");
     let Some(d) = disturbances.get(e.disturbance) else {
         r.disturbance = None;
-        return r.verdict(
+        return r.decide(
             Verdict::Inconclusive,
+            Reason::NotAsPlanned,
             format!(
                 "the plan expects disturbance #{} but the recording shows {}; this recording is not evidence of the planned test",
                 e.disturbance,
@@ -96,31 +106,32 @@ pub fn evaluate(
     let mut bad = Vec::new();
     let mut worst: Option<(f64, f64, f64, f64)> = None; // measured, limit, margin, at
     if let Some(want) = e.residual_pu {
-        match residual(d) {
-            Some(got) => {
-                let m = compare(
-                    "residual",
-                    "pu",
-                    got,
-                    want,
-                    e.residual_tolerance_pu,
-                    &mut ok,
-                    &mut bad,
-                );
-                worst = Some((got, want, m, d.extreme_at_s));
-            }
-            None => bad.push("residual voltage cannot be measured (no settled part)".into()),
-        }
+        let got = d.extreme_pu;
+        let m = compare(
+            "residual (extreme)",
+            "pu",
+            got,
+            want,
+            e.residual_tolerance_pu,
+            &mut ok,
+            &mut bad,
+        );
+        worst = Some((got, want, m, d.extreme_at_s));
     }
     if let Some(want) = e.duration_s {
-        match d.duration_s() {
+        let how = if d.clearance_s.is_some() {
+            "duration (inception to clearance)"
+        } else {
+            "duration (phasor level)"
+        };
+        match d.fault_duration_s() {
             Some(got) => {
                 let m = compare(
-                    "duration",
+                    how,
                     "s",
                     got,
                     want,
-                    e.duration_tolerance_s,
+                    e.duration_tolerance(want),
                     &mut ok,
                     &mut bad,
                 );
@@ -166,13 +177,15 @@ pub fn evaluate(
         r.at_s = Some(at);
     }
     if bad.is_empty() {
-        r.verdict(
+        r.decide(
             Verdict::Pass,
+            Reason::AsPlanned,
             format!("the recording shows the planned test: {}", ok.join(", ")),
         )
     } else {
-        r.verdict(
+        r.decide(
             Verdict::Inconclusive,
+            Reason::NotAsPlanned,
             format!(
                 "the recording does not show the planned test: {}{}",
                 bad.join(", "),
@@ -198,7 +211,7 @@ fn compare(
     bad: &mut Vec<String>,
 ) -> f64 {
     let m = tolerance - (got - want).abs();
-    let s = format!("{what} {got:.3} {unit} (planned {want:.3} ± {tolerance})");
+    let s = format!("{what} {got:.3} {unit} (planned {want:.3} ± {tolerance:.3})");
     if m >= 0.0 {
         ok.push(s)
     } else {

@@ -59,6 +59,109 @@ impl Verdict {
     }
 }
 
+/// Defines [`Reason`] with each variant's name in one place.
+macro_rules! reasons {
+    ($( $(#[$doc:meta])* $v:ident = $n:literal, )*) => {
+        /// Why a check reached its verdict: one word a reviewer can sort and
+        /// filter by, beside the sentence in `detail` (docs/rules.md lists
+        /// them per check type).
+        #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize, Deserialize, JsonSchema)]
+        pub enum Reason {
+            $( $(#[$doc])* #[serde(rename = $n)] $v, )*
+        }
+        impl Reason {
+            pub const ALL: &'static [Reason] = &[$(Reason::$v,)*];
+            /// The name written in results.json, summary.csv and the table.
+            pub fn name(self) -> &'static str {
+                match self { $(Reason::$v => $n,)* }
+            }
+        }
+    };
+}
+
+reasons! {
+    /// Zone checks: no trip; the voltage stayed inside the zone.
+    NoTrip = "no_trip",
+    /// Zone checks: the unit tripped while the voltage was inside the zone.
+    TripInsideZone = "trip_inside_zone",
+    /// Zone checks: the unit tripped after the voltage had left the zone.
+    PermittedTrip = "permitted_trip",
+    /// Zone checks: the voltage left the zone and the unit stayed connected.
+    RodeThroughBeyondZone = "rode_through_beyond_zone",
+    /// Connection: no trip in the whole recording.
+    StayedConnected = "stayed_connected",
+    /// Connection: a trip while no disturbance was under way.
+    TripOutsideDisturbance = "trip_outside_disturbance",
+    /// Connection: momentary cessation while no disturbance was under way,
+    /// which a rule forbids.
+    CessationOutsideDisturbance = "cessation_outside_disturbance",
+    /// Connection: the trip happened during a disturbance that no zone check
+    /// judges, or whose zone checks could not decide.
+    TripNotJudged = "trip_not_judged",
+    /// The requirement was not triggered (no such disturbance, inside the
+    /// dead band, low pre-fault loading).
+    NotTriggered = "not_triggered",
+    /// Too few samples, or the recording or the fault too short.
+    InsufficientData = "insufficient_data",
+    /// No pre-fault window to take the references from.
+    NoPrefaultReference = "no_prefault_reference",
+    /// The recording can show no trip (no status channel, no usable current).
+    TripNotVisible = "trip_not_visible",
+    /// A channel the check needs is not in the recording.
+    MissingChannel = "missing_channel",
+    /// The voltage the rule set judges is not observable in the recording
+    /// (phase to neutral from phase-to-phase voltages).
+    VoltageUnobservable = "voltage_unobservable",
+    /// A fault too short for one-cycle phasors to show its depth, and the
+    /// depth decides the verdict.
+    DepthUnresolved = "depth_unresolved",
+    /// The unit had tripped before this disturbance.
+    AlreadyTripped = "already_tripped",
+    /// The next disturbance started before the requirement's deadline.
+    NextDisturbance = "next_disturbance",
+    /// Reactive current: rise and settling within their limits.
+    WithinLimits = "within_limits",
+    /// Reactive current: 90 % reached after the rise-time limit.
+    RiseTooSlow = "rise_too_slow",
+    /// Reactive current: never reached 90 % of the requirement.
+    NeverReached = "never_reached",
+    /// Reactive current: did not stay inside the tolerance band.
+    NotSettled = "not_settled",
+    /// Reactive current: inside the band for good only after the settling limit.
+    SettledTooLate = "settled_too_late",
+    /// Active power recovered in time.
+    Recovered = "recovered",
+    /// Active power recovered after the limit.
+    RecoveredLate = "recovered_late",
+    /// Active power had not recovered at the deadline.
+    NotRecovered = "not_recovered",
+    /// The unit tripped before active power recovered.
+    TrippedBeforeRecovery = "tripped_before_recovery",
+    /// Recovery is not required after a trip every zone check permits.
+    TripPermitted = "trip_permitted",
+    /// Test realisation: the recording shows the planned test.
+    AsPlanned = "as_planned",
+    /// Test realisation: the recording does not show the planned test.
+    NotAsPlanned = "not_as_planned",
+}
+
+/// One quasi-steady segment of a multi-step fault (reactive current).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct Segment {
+    pub start_s: f64,
+    pub end_s: f64,
+    /// Mean voltage deviation over the segment's settled part, pu.
+    pub settled_deviation_pu: f64,
+    /// Required extra current from that deviation (after the limit), pu.
+    pub required_pu: f64,
+    /// From the segment's start until inside the band for good, s (null: never).
+    #[schemars(with = "Nullable<f64>")]
+    pub settling_time_s: Option<f64>,
+    /// Mean measured extra current over the settled part, pu.
+    #[schemars(with = "Nullable<f64>")]
+    pub measured_pu: Option<f64>,
+}
+
 /// The verdict of one check for one disturbance.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
 pub struct CheckResult {
@@ -83,6 +186,9 @@ pub struct CheckResult {
     pub at_s: Option<f64>,
     /// A plain sentence a reviewer can read without the manual.
     pub detail: String,
+    /// Why the verdict was reached (one word; see docs/rules.md).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reason: Option<Reason>,
     /// Reactive current: measured settling time, s (null if it never settled).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub settling_time_s: Option<f64>,
@@ -105,6 +211,20 @@ pub struct CheckResult {
     /// Ride-through checks: the trip was permitted (after leaving the zone).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub permitted_trip: Option<bool>,
+    /// Reactive current: the current limit cut the requirement.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub limited: Option<bool>,
+    /// Reactive current: pre-fault reactive current the extra current is
+    /// measured from, pu.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reference_pu: Option<f64>,
+    /// Reactive current: the instant rise and settling times count from
+    /// (disturbance start or waveform inception), s.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub time_from_s: Option<f64>,
+    /// Reactive current: the quasi-steady segments of a multi-step fault.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub segments: Vec<Segment>,
 }
 
 impl CheckResult {
@@ -128,12 +248,35 @@ impl CheckResult {
             prefault_pu: None,
             left_zone_s: None,
             permitted_trip: None,
+            reason: None,
+            limited: None,
+            reference_pu: None,
+            time_from_s: None,
+            segments: Vec::new(),
         }
     }
     pub fn verdict(mut self, v: Verdict, detail: impl Into<String>) -> Self {
         self.verdict = v;
         self.detail = detail.into();
         self
+    }
+    /// Sets verdict, reason and sentence at once.
+    pub fn decide(mut self, v: Verdict, reason: Reason, detail: impl Into<String>) -> Self {
+        self.verdict = v;
+        self.reason = Some(reason);
+        self.detail = detail.into();
+        self
+    }
+    /// Inconclusive and not-applicable rows carry no measured value or
+    /// margin that could be read as a pass (the limit, a requirement, stays).
+    pub fn clear_if_undecided(&mut self) {
+        if matches!(self.verdict, Verdict::Inconclusive | Verdict::NotApplicable) {
+            self.measured = None;
+            self.margin = None;
+            self.measured_gain = None;
+            self.measured_pu = None;
+            self.settling_time_s = None;
+        }
     }
 }
 
@@ -168,6 +311,20 @@ pub struct DisturbanceResult {
     pub prefault_p_pu: Option<f64>,
     #[serde(default)]
     pub prefault_q_pu: Option<f64>,
+    /// Waveforms: the instant the waveform left the pre-fault sinusoid, s.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub inception_s: Option<f64>,
+    /// Waveforms: the instant the waveform left the fault-period sinusoid
+    /// at the end of the disturbance (fault clearance), s.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub clearance_s: Option<f64>,
+    /// Pre-fault averaging window `[from, to]`, s.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub prefault_window_s: Option<[f64; 2]>,
+    /// The references were inherited from this earlier disturbance (the
+    /// first of its chain): no clean pre-fault window lay in between.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub prefault_from: Option<usize>,
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
@@ -302,6 +459,10 @@ impl From<&crate::analysis::events::Disturbance> for DisturbanceResult {
             prefault_v_pu: d.prefault.map(|p| p.v_pu),
             prefault_p_pu: d.prefault.and_then(|p| p.p_pu),
             prefault_q_pu: d.prefault.and_then(|p| p.q_pu),
+            inception_s: d.inception_s,
+            clearance_s: d.clearance_s,
+            prefault_window_s: d.prefault.map(|p| [p.from_s, p.to_s]),
+            prefault_from: d.prefault_from,
         }
     }
 }

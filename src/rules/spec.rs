@@ -226,6 +226,18 @@ pub enum Follow {
     Instantaneous,
 }
 
+/// The instant rise and settling times count from.
+#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum TimeFrom {
+    /// The disturbance start (the phasor crossing of the detection threshold).
+    #[default]
+    Start,
+    /// The waveform inception (where the waveform left the pre-fault
+    /// sinusoid); the start where the recording has no waveforms.
+    Inception,
+}
+
 #[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq, Default)]
 #[serde(rename_all = "snake_case")]
 pub enum AppliesTo {
@@ -263,10 +275,21 @@ pub struct ReactiveCurrentSpec {
     pub follow: Follow,
     #[serde(default)]
     pub applies_to: AppliesTo,
+    /// A move of the voltage by more than this that then holds for the
+    /// settling time starts a new quasi-steady segment with its own
+    /// requirement, pu (default 0.05).
+    #[serde(default = "d_segment")]
+    pub segment_step_pu: f64,
+    /// Where rise and settling times count from (default `start`).
+    #[serde(default)]
+    pub time_from: TimeFrom,
 }
 
 fn d_limit() -> f64 {
     1.0
+}
+fn d_segment() -> f64 {
+    0.05
 }
 
 #[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
@@ -280,11 +303,18 @@ pub struct ActivePowerRecoverySpec {
     /// Not applicable below this pre-fault loading, pu (default 0.1).
     #[serde(default = "d_minp")]
     pub min_prefault_pu: f64,
+    /// The power must stay at or above the target this long, s (default 0).
+    #[serde(default)]
+    pub hold_s: f64,
 }
 
 fn d_minp() -> f64 {
     0.1
 }
+
+/// Check ids holdfast uses for the checks it adds itself (the connection
+/// check of every recording, the plan's test realisation).
+pub const RESERVED_IDS: [&str; 2] = ["connection", "realisation"];
 
 /// A value that cannot make sense, with where it is.
 #[derive(Clone, Debug, PartialEq)]
@@ -370,6 +400,14 @@ impl RuleSet {
             };
             if c.id().trim().is_empty() {
                 p("id", "check id is empty".into());
+            } else if RESERVED_IDS.contains(&c.id().trim()) {
+                p(
+                    "id",
+                    format!(
+                        "check id '{}' is reserved for the check holdfast adds itself; choose another",
+                        c.id()
+                    ),
+                );
             } else if !seen.insert(c.id().to_string()) {
                 p("id", format!("check id '{}' is used twice", c.id()));
             }
@@ -513,6 +551,12 @@ impl RuleSet {
                             ),
                         );
                     }
+                    if !(r.segment_step_pu > 0.0 && r.segment_step_pu < 1.0) {
+                        p(
+                            "segment_step_pu",
+                            format!("segment_step_pu {} must be in (0, 1)", r.segment_step_pu),
+                        );
+                    }
                     if !(r.limit_pu > 0.0 && r.limit_pu <= 3.0) {
                         p(
                             "limit_pu",
@@ -531,6 +575,12 @@ impl RuleSet {
                         p(
                             "within_s",
                             format!("within_s {} must be in (0, 60] s", a.within_s),
+                        );
+                    }
+                    if !(a.hold_s >= 0.0 && a.hold_s <= 60.0) {
+                        p(
+                            "hold_s",
+                            format!("hold_s {} must be in [0, 60] s", a.hold_s),
                         );
                     }
                     if !(a.min_prefault_pu >= 0.0 && a.min_prefault_pu < 1.0) {

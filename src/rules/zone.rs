@@ -1,7 +1,14 @@
 //! Ride-through zone checks: envelopes and duration tables, and the verdict
-//! rules they share (domain reference §5).
+//! rules they share (domain reference §5; reasons and margins as in
+//! docs/rules.md, "Ride-through zone checks").
+//!
+//! A scan follows the zone sample by sample from the disturbance start and
+//! records the **headroom**: for an envelope `V − C(τ)` (lower) or `C(τ) − V`
+//! (upper), in pu, inside while ≥ 0; for a duration table the least
+//! `d_i − r_i(t)` over the rows the voltage is beyond (continuous mode) or
+//! has been beyond (cumulative), in s, inside while > 0.
 
-use super::result::{CheckResult, Verdict};
+use super::result::{CheckResult, Reason, Verdict};
 use super::spec::{Bound, Cessation, Side, TableMode, TableRow};
 
 /// The boundary `C(τ)` of an envelope: linear between points, a repeated
@@ -26,31 +33,143 @@ pub fn curve_at(points: &[[f64; 2]], tau: f64) -> f64 {
     }
 }
 
-/// What a scan of the zone found between `t0` and `t_end`.
+/// The staircase envelope equivalent to a duration table in continuous mode:
+/// `C(τ) = max{x_i : d_i ≤ τ}` below (min above), with vertical steps at
+/// each `d_i`. For a dip that steps at the start and then recovers
+/// monotonically, "below `x_i` for `d_i`" ⇔ "below `C` at `τ = d_i`"; the
+/// figures draw tables this way and the property test relies on it.
+pub fn table_boundary(rows: &[TableRow], side: Side) -> Vec<[f64; 2]> {
+    let mut ds: Vec<f64> = rows.iter().map(|r| r.max_s).collect();
+    ds.sort_by(f64::total_cmp);
+    ds.dedup();
+    let level = |tau: f64| {
+        let lv = rows.iter().filter(|r| r.max_s <= tau).map(|r| r.beyond_pu);
+        match side {
+            Side::Below => lv.fold(0.0, f64::max),
+            Side::Above => lv.fold(3.0, f64::min),
+        }
+    };
+    let mut pts = vec![[0.0, level(-1.0)]];
+    for d in ds {
+        let before = pts.last().map_or(0.0, |p| p[1]);
+        pts.push([d, before]);
+        pts.push([d, level(d)]);
+    }
+    pts
+}
+
+/// What a zone scan describes its samples against.
+#[derive(Clone, Debug, PartialEq)]
+enum Against {
+    Envelope(Vec<[f64; 2]>),
+    Table {
+        rows: Vec<TableRow>,
+        side: Side,
+        mode: TableMode,
+        /// Binding row per sample (`usize::MAX`: none active).
+        row_at: Vec<usize>,
+    },
+}
+
+/// The zone followed sample by sample from `t0` to the end of the scan.
 #[derive(Clone, Debug, PartialEq)]
 pub struct ZoneScan {
+    pub t0: f64,
+    pub t: Vec<f64>,
+    /// Headroom per sample (pu for envelopes, s for tables; +∞ when no table
+    /// row is active).
+    pub headroom: Vec<f64>,
+    /// The voltage (envelope) or the time beyond the binding row (table).
+    pub measured: Vec<f64>,
+    /// The boundary `C(τ)` (envelope) or the binding row's `max_s` (table).
+    pub limit: Vec<f64>,
     /// First time the voltage was outside the zone.
     pub first_outside: Option<f64>,
-    /// Smallest margin (pu for envelopes, s for tables) and where.
-    pub margin: f64,
-    pub at_s: f64,
-    pub measured: f64,
-    pub limit: f64,
-    /// Sentence fragment naming what was closest.
-    pub closest: String,
-    pub samples: usize,
+    /// Unit of headroom, measured and limit.
+    pub unit: &'static str,
+    /// Table: the headroom when no row is active (the shortest non-zero
+    /// `max_s`); NaN for envelopes.
+    pub idle_headroom: f64,
+    /// A lower zone (undervoltage) rather than an upper one.
+    pub lower: bool,
+    against: Against,
 }
 
 impl ZoneScan {
-    fn empty() -> Self {
-        ZoneScan {
-            first_outside: None,
-            margin: f64::INFINITY,
-            at_s: f64::NAN,
-            measured: f64::NAN,
-            limit: f64::NAN,
-            closest: String::new(),
-            samples: 0,
+    pub fn samples(&self) -> usize {
+        self.t.len()
+    }
+
+    fn headroom_at(&self, k: usize) -> f64 {
+        let h = self.headroom[k];
+        if h.is_infinite() && h > 0.0 {
+            self.idle_headroom
+        } else {
+            h
+        }
+    }
+
+    /// Index of the smallest headroom among samples with `t ≤ until`.
+    fn smallest_until(&self, until: f64) -> Option<usize> {
+        let n = self.t.partition_point(|x| *x <= until);
+        (0..n).min_by(|a, b| self.headroom[*a].total_cmp(&self.headroom[*b]))
+    }
+
+    /// Index of the last sample at or before `t`.
+    fn at_or_before(&self, t: f64) -> Option<usize> {
+        self.t.partition_point(|x| *x <= t).checked_sub(1)
+    }
+
+    /// A sentence fragment about sample `k`.
+    fn describe(&self, k: usize) -> String {
+        let tau = self.t[k] - self.t0;
+        match &self.against {
+            Against::Envelope(points) => {
+                let nearest = points
+                    .iter()
+                    .min_by(|a, b| (a[0] - tau).abs().total_cmp(&(b[0] - tau).abs()))
+                    .copied()
+                    .unwrap_or([0.0, 0.0]);
+                format!(
+                    "{:.3} pu against the boundary {:.3} pu at {:.3} s after the start (nearest envelope point [{}, {}])",
+                    self.measured[k], self.limit[k], tau, nearest[0], nearest[1]
+                )
+            }
+            Against::Table {
+                rows,
+                side,
+                mode,
+                row_at,
+            } => match rows.get(row_at[k]) {
+                Some(row) => format!(
+                    "{} {} pu for {:.3} s{} against the row's {} s, {:.3} s after the start",
+                    match side {
+                        Side::Below => "below",
+                        Side::Above => "above",
+                    },
+                    row.beyond_pu,
+                    self.measured[k],
+                    if *mode == TableMode::Cumulative {
+                        " in total"
+                    } else {
+                        ""
+                    },
+                    row.max_s,
+                    tau
+                ),
+                None => format!("the voltage was beyond no row's level {tau:.3} s after the start"),
+            },
+        }
+    }
+
+    /// Measured value and limit at sample `k` (a table with no active row:
+    /// 0 s against the shortest non-zero duration).
+    fn values_at(&self, k: usize) -> (Option<f64>, Option<f64>) {
+        let f = |x: f64| x.is_finite().then_some(x);
+        if self.headroom[k].is_infinite() {
+            (Some(0.0), f(self.idle_headroom))
+        } else {
+            (f(self.measured[k]), f(self.limit[k]))
         }
     }
 }
@@ -72,43 +191,40 @@ pub fn scan_envelope(
     bound: Bound,
     points: &[[f64; 2]],
 ) -> ZoneScan {
-    let mut s = ZoneScan::empty();
+    let mut s = ZoneScan {
+        t0,
+        t: Vec::new(),
+        headroom: Vec::new(),
+        measured: Vec::new(),
+        limit: Vec::new(),
+        first_outside: None,
+        unit: "pu",
+        idle_headroom: f64::NAN,
+        lower: bound == Bound::Lower,
+        against: Against::Envelope(points.to_vec()),
+    };
     for k in window(t, v, t0, t_end) {
-        s.samples += 1;
         let c = curve_at(points, t[k] - t0);
-        let m = match bound {
+        let h = match bound {
             Bound::Lower => v[k] - c,
             Bound::Upper => c - v[k],
         };
-        if m < 0.0 && s.first_outside.is_none() {
+        if h < 0.0 && s.first_outside.is_none() {
             s.first_outside = Some(t[k]);
         }
-        if m < s.margin {
-            s.margin = m;
-            s.at_s = t[k];
-            s.measured = v[k];
-            s.limit = c;
-        }
-    }
-    if s.samples > 0 {
-        let tau = s.at_s - t0;
-        // Name the envelope point nearest in time to the closest approach.
-        let nearest = points
-            .iter()
-            .min_by(|a, b| (a[0] - tau).abs().total_cmp(&(b[0] - tau).abs()))
-            .copied()
-            .unwrap_or([0.0, 0.0]);
-        s.closest = format!(
-            "closest approach {:.3} pu against the boundary {:.3} pu at {:.3} s after the start (nearest envelope point [{}, {}])",
-            s.measured, s.limit, tau, nearest[0], nearest[1]
-        );
+        s.t.push(t[k]);
+        s.headroom.push(h);
+        s.measured.push(v[k]);
+        s.limit.push(c);
     }
     s
 }
 
-/// Scans a duration table over samples with `t0 ≤ t ≤ t_end`. The margin is
-/// `max_s − r` (s) of the row closest to its limit, over rows the voltage
-/// went beyond.
+/// Scans a duration table over samples with `t0 ≤ t ≤ t_end`. At time `t`,
+/// `r_i(t)` is how long the voltage has been beyond row `i`'s level (from
+/// the first to the current sample of the run; cumulative mode adds the
+/// earlier runs since `t0`); the zone is left at the first `t` where some
+/// `r_i(t) ≥ d_i`.
 pub fn scan_table(
     t: &[f64],
     v: &[f64],
@@ -122,77 +238,68 @@ pub fn scan_table(
     let mut run_start: Vec<Option<f64>> = vec![None; n];
     let mut done: Vec<f64> = vec![0.0; n];
     let mut last_beyond: Vec<f64> = vec![f64::NAN; n];
-    let mut worst_r: Vec<f64> = vec![f64::NAN; n];
-    let mut worst_at: Vec<f64> = vec![f64::NAN; n];
-    let mut s = ZoneScan::empty();
+    let idle = rows
+        .iter()
+        .map(|r| r.max_s)
+        .filter(|d| *d > 0.0)
+        .fold(f64::INFINITY, f64::min);
+    let mut s = ZoneScan {
+        t0,
+        t: Vec::new(),
+        headroom: Vec::new(),
+        measured: Vec::new(),
+        limit: Vec::new(),
+        first_outside: None,
+        unit: "s",
+        idle_headroom: if idle.is_finite() { idle } else { f64::NAN },
+        lower: side == Side::Below,
+        against: Against::Table {
+            rows: rows.to_vec(),
+            side,
+            mode,
+            row_at: Vec::new(),
+        },
+    };
+    let mut row_at = Vec::new();
     for k in window(t, v, t0, t_end) {
-        s.samples += 1;
+        let mut best = (f64::INFINITY, usize::MAX, f64::NAN);
         for (i, row) in rows.iter().enumerate() {
             let beyond = match side {
                 Side::Below => v[k] < row.beyond_pu,
                 Side::Above => v[k] > row.beyond_pu,
             };
-            if beyond {
+            let r = if beyond {
                 let a = *run_start[i].get_or_insert(t[k]);
-                let r = match mode {
+                last_beyond[i] = t[k];
+                Some(match mode {
                     TableMode::Continuous => t[k] - a,
                     TableMode::Cumulative => done[i] + (t[k] - a),
-                };
-                if !(worst_r[i] >= r) {
-                    worst_r[i] = r;
-                    worst_at[i] = t[k];
+                })
+            } else {
+                if let Some(a) = run_start[i].take() {
+                    // The run ended at the previous beyond sample.
+                    done[i] += last_beyond[i] - a;
                 }
-                if r >= row.max_s && s.first_outside.is_none() {
-                    s.first_outside = Some(t[k]);
+                (mode == TableMode::Cumulative && done[i] > 0.0).then_some(done[i])
+            };
+            if let Some(r) = r {
+                let h = row.max_s - r;
+                if h < best.0 {
+                    best = (h, i, r);
                 }
-                last_beyond[i] = t[k];
-            } else if let Some(a) = run_start[i].take() {
-                // The run ended at the previous beyond sample.
-                done[i] += last_beyond[i] - a;
             }
         }
+        if best.0 <= 0.0 && s.first_outside.is_none() {
+            s.first_outside = Some(t[k]);
+        }
+        s.t.push(t[k]);
+        s.headroom.push(best.0);
+        s.measured.push(best.2);
+        s.limit.push(rows.get(best.1).map_or(f64::NAN, |r| r.max_s));
+        row_at.push(best.1);
     }
-    // Cumulative runs: `done` is updated when a run ends; a run still open
-    // at the end is already counted in worst_r.
-    let mut best: Option<usize> = None;
-    for i in 0..n {
-        if worst_r[i].is_finite() {
-            let m = rows[i].max_s - worst_r[i];
-            if best.is_none_or(|b| m < rows[b].max_s - worst_r[b]) {
-                best = Some(i);
-            }
-        }
-    }
-    match best {
-        Some(i) => {
-            s.margin = rows[i].max_s - worst_r[i];
-            s.measured = worst_r[i];
-            s.limit = rows[i].max_s;
-            s.at_s = worst_at[i];
-            s.closest = format!(
-                "{} {} pu for {:.3} s{} against the row's {} s",
-                match side {
-                    Side::Below => "below",
-                    Side::Above => "above",
-                },
-                rows[i].beyond_pu,
-                worst_r[i],
-                if mode == TableMode::Cumulative {
-                    " in total"
-                } else {
-                    ""
-                },
-                rows[i].max_s
-            );
-        }
-        None => {
-            let lim = rows.iter().map(|r| r.max_s).fold(f64::INFINITY, f64::min);
-            s.margin = lim;
-            s.measured = 0.0;
-            s.limit = lim;
-            s.at_s = t0;
-            s.closest = "the voltage never went beyond any row's level".into();
-        }
+    if let Against::Table { row_at: ra, .. } = &mut s.against {
+        *ra = row_at;
     }
     s
 }
@@ -211,69 +318,61 @@ pub struct ConnectionFacts {
 /// When the disturbance happened and what the recording covers.
 pub struct Timing {
     pub t0: f64,
-    /// Phasor-level duration of the disturbance (None: it never ended).
-    pub disturbance_s: Option<f64>,
+    /// Disturbance end (re-entry), `None` when it never ended.
+    pub end_s: Option<f64>,
     pub cycle_s: f64,
     pub recording_end_s: f64,
     /// The recording must reach this time when the voltage never recovered.
     pub needs_until_s: f64,
 }
 
-/// Turns a zone scan into a verdict (domain reference §5, envelope).
-pub fn zone_verdict(
+impl Timing {
+    /// Phasor-level duration; below two nominal cycles the one-cycle window
+    /// cannot show the fault's depth (a fault of length L gives an excursion
+    /// of about L + one cycle whose depth is only reached when L ≥ one cycle).
+    fn short(&self) -> Option<f64> {
+        self.end_s
+            .map(|e| e - self.t0)
+            .filter(|d| *d < 2.0 * self.cycle_s)
+    }
+}
+
+/// The deepest case of a short fault: the voltage replaced by 0 (lower
+/// zones) or a very high value (upper) from the start to the end, so that a
+/// verdict can be checked for every true depth between it and the measured one.
+pub fn deepest(t: &[f64], v: &[f64], timing: &Timing, bound: Bound) -> Vec<f64> {
+    let end = timing.end_s.unwrap_or(timing.t0);
+    let floor = match bound {
+        Bound::Lower => 0.0,
+        Bound::Upper => 1e6,
+    };
+    t.iter()
+        .zip(v)
+        .map(|(x, y)| {
+            if *x >= timing.t0 && *x <= end {
+                floor
+            } else {
+                *y
+            }
+        })
+        .collect()
+}
+
+/// Verdict, reason, margin and sentence from a scan and the trip (no short-fault handling).
+fn judge(
     mut r: CheckResult,
     scan: &ZoneScan,
     conn: &ConnectionFacts,
     timing: &Timing,
     cessation: Cessation,
 ) -> CheckResult {
-    let Timing {
-        t0,
-        disturbance_s,
-        cycle_s,
-        recording_end_s,
-        needs_until_s,
-    } = *timing;
-    r.measured = scan.measured.is_finite().then_some(scan.measured);
-    r.limit = scan.limit.is_finite().then_some(scan.limit);
-    r.margin = scan.margin.is_finite().then_some(scan.margin);
-    r.at_s = scan.at_s.is_finite().then_some(scan.at_s);
+    let t0 = timing.t0;
     r.left_zone_s = scan.first_outside;
-    if let Some(tb) = conn.tripped_before_s {
-        return r.verdict(
-            Verdict::Inconclusive,
-            format!("the unit had already tripped at {tb:.3} s, before this disturbance started at {t0:.3} s"),
-        );
-    }
-    if let Some(d) = disturbance_s {
-        // A one-cycle window turns a fault of length L into a phasor-level
-        // excursion of about L + one cycle whose depth is only reached when
-        // L ≥ one cycle; below two cycles at phasor level the depth is unknown.
-        if d < 2.0 * cycle_s {
-            return r.verdict(
-                Verdict::Inconclusive,
-                format!(
-                    "the disturbance lasted {:.1} ms at phasor level (less than two nominal cycles, {:.1} ms): the fault was too short for one-cycle phasors to show its depth, so the data cannot decide",
-                    d * 1e3,
-                    2.0 * cycle_s * 1e3
-                ),
-            );
-        }
-    }
-    if scan.samples == 0 {
-        return r.verdict(
-            Verdict::Inconclusive,
-            "no analysed samples after the disturbance start",
-        );
-    }
-    let forbidden_cessation = if cessation == Cessation::Forbidden {
-        let inside_until = scan.first_outside.unwrap_or(f64::INFINITY);
-        conn.cessations
-            .iter()
-            .find(|(a, _)| *a >= t0 && *a < inside_until)
-            .copied()
-    } else {
-        None
+    r.unit = scan.unit.into();
+    let set = |r: &mut CheckResult, k: usize| {
+        let (m, l) = scan.values_at(k);
+        r.measured = m;
+        r.limit = l;
     };
     let noted_cessation = conn
         .cessations
@@ -289,64 +388,190 @@ pub fn zone_verdict(
             noted_cessation.join(", ")
         )
     };
-    match conn.trip_s {
-        Some(tt) => match scan.first_outside {
+    if let Some(tt) = conn.trip_s {
+        return match scan.first_outside {
             Some(o) if o <= tt => {
                 r.permitted_trip = Some(true);
-                r.verdict(
+                r.unit = "s".into();
+                r.measured = Some(tt - o);
+                r.limit = Some(0.0);
+                r.margin = Some(tt - o);
+                r.at_s = Some(tt);
+                r.decide(
                     Verdict::Pass,
+                    Reason::PermittedTrip,
                     format!(
-                        "permitted trip: the voltage left the ride-through zone at {o:.3} s and the unit tripped afterwards at {tt:.3} s{cess_note}"
+                        "permitted trip: the voltage left the ride-through zone at {o:.3} s and the unit tripped {:.3} s later, at {tt:.3} s{cess_note}",
+                        tt - o
                     ),
                 )
             }
             _ => {
                 r.permitted_trip = Some(false);
-                r.verdict(
+                let at = scan.at_or_before(tt);
+                let h = at.map(|k| scan.headroom_at(k)).filter(|h| h.is_finite());
+                if let Some(k) = at {
+                    set(&mut r, k);
+                }
+                r.margin = h.map(|h| -h);
+                r.at_s = Some(tt);
+                let then = at
+                    .map(|k| format!("; at the trip: {}", scan.describe(k)))
+                    .unwrap_or_default();
+                r.decide(
                     Verdict::Fail,
+                    Reason::TripInsideZone,
                     format!(
-                        "the unit tripped at {tt:.3} s while the voltage was inside the ride-through zone; {}{cess_note}",
-                        scan.closest
+                        "the unit tripped at {tt:.3} s while the voltage was inside the ride-through zone{then}{cess_note}"
                     ),
                 )
             }
-        },
-        None => {
-            if let Some((a, b)) = forbidden_cessation {
-                return r.verdict(
-                    Verdict::Fail,
-                    format!("momentary cessation {a:.3}–{b:.3} s inside the ride-through zone, which the rule forbids"),
-                );
-            }
-            if !conn.trip_visible {
-                return r.verdict(
-                    Verdict::Inconclusive,
-                    format!(
-                        "the recording has neither a status channel nor usable current, so staying connected cannot be shown; {}",
-                        scan.closest
-                    ),
-                );
-            }
-            if scan.first_outside.is_none() && recording_end_s < needs_until_s {
-                return r.verdict(
-                    Verdict::Inconclusive,
-                    format!(
-                        "the recording ends at {recording_end_s:.3} s, before the voltage returned to normal and before the requirement's last point at {needs_until_s:.3} s"
-                    ),
-                );
-            }
-            match scan.first_outside {
-                Some(o) => r.verdict(
-                    Verdict::Pass,
-                    format!(
-                        "the voltage left the ride-through zone at {o:.3} s; the unit stayed connected (not required after that){cess_note}"
-                    ),
-                ),
-                None => r.verdict(
-                    Verdict::Pass,
-                    format!("no trip; the voltage stayed inside the ride-through zone; {}{cess_note}", scan.closest),
-                ),
-            }
+        };
+    }
+    if cessation == Cessation::Forbidden {
+        let inside_until = scan.first_outside.unwrap_or(f64::INFINITY);
+        if let Some((a, b)) = conn
+            .cessations
+            .iter()
+            .find(|(a, _)| *a >= t0 - timing.cycle_s && *a < inside_until)
+        {
+            r.at_s = Some(*a);
+            return r.decide(
+                Verdict::Fail,
+                Reason::TripInsideZone,
+                format!("momentary cessation {a:.3}–{b:.3} s inside the ride-through zone, which the rule forbids"),
+            );
         }
+    }
+    if !conn.trip_visible {
+        return r.decide(
+            Verdict::Inconclusive,
+            Reason::TripNotVisible,
+            "the recording has neither a status channel nor usable current, so staying connected cannot be shown",
+        );
+    }
+    if scan.first_outside.is_none() && timing.recording_end_s < timing.needs_until_s {
+        return r.decide(
+            Verdict::Inconclusive,
+            Reason::InsufficientData,
+            format!(
+                "the recording ends at {:.3} s, before the voltage returned to normal and before the requirement's last point at {:.3} s",
+                timing.recording_end_s, timing.needs_until_s
+            ),
+        );
+    }
+    match scan.first_outside {
+        Some(o) => {
+            if let Some(k) = scan.smallest_until(f64::INFINITY) {
+                set(&mut r, k);
+                r.at_s = Some(scan.t[k]);
+            }
+            r.margin = None;
+            r.decide(
+                Verdict::Pass,
+                Reason::RodeThroughBeyondZone,
+                format!(
+                    "the voltage left the ride-through zone at {o:.3} s; the unit stayed connected (not required after that){cess_note}"
+                ),
+            )
+        }
+        None => {
+            // Headroom over the disturbance itself, not the recovered tail.
+            let until = timing.end_s.unwrap_or(f64::INFINITY);
+            let k = scan
+                .smallest_until(until)
+                .or(scan.smallest_until(f64::INFINITY));
+            if let Some(k) = k {
+                set(&mut r, k);
+                r.margin = Some(scan.headroom_at(k)).filter(|h| h.is_finite());
+                r.at_s = Some(scan.t[k]);
+            }
+            let closest = k
+                .map(|k| format!("; smallest headroom: {}", scan.describe(k)))
+                .unwrap_or_default();
+            r.decide(
+                Verdict::Pass,
+                Reason::NoTrip,
+                format!(
+                    "no trip; the voltage stayed inside the ride-through zone{closest}{cess_note}"
+                ),
+            )
+        }
+    }
+}
+
+/// Turns a zone scan into a verdict (domain reference §5; decisions A.5 and
+/// B.6 in docs/rules.md). `deep` is the scan of the deepest case
+/// ([`deepest`]) for faults shorter than two cycles at phasor level.
+pub fn zone_verdict(
+    r: CheckResult,
+    scan: &ZoneScan,
+    deep: Option<&ZoneScan>,
+    conn: &ConnectionFacts,
+    timing: &Timing,
+    cessation: Cessation,
+) -> CheckResult {
+    let t0 = timing.t0;
+    if let Some(tb) = conn.tripped_before_s {
+        return r.decide(
+            Verdict::Inconclusive,
+            Reason::AlreadyTripped,
+            format!("the unit had already tripped at {tb:.3} s, before this disturbance started at {t0:.3} s"),
+        );
+    }
+    if scan.samples() == 0 {
+        return r.decide(
+            Verdict::Inconclusive,
+            Reason::InsufficientData,
+            "no analysed samples after the disturbance start",
+        );
+    }
+    let Some(d) = timing.short() else {
+        return judge(r, scan, conn, timing, cessation);
+    };
+    let smear = format!(
+        "the disturbance lasted {:.1} ms at phasor level (less than two nominal cycles, {:.1} ms), too short for one-cycle phasors to show its depth",
+        d * 1e3,
+        2.0 * timing.cycle_s * 1e3
+    );
+    let measured = judge(r.clone(), scan, conn, timing, cessation);
+    if conn.trip_s.is_none() {
+        if measured.verdict != Verdict::Pass {
+            return measured;
+        }
+        // Whatever the true depth, the unit rode through it.
+        let mut p = measured;
+        p.margin = None;
+        p.left_zone_s = None;
+        return p.decide(
+            Verdict::Pass,
+            Reason::NoTrip,
+            format!("{smear}; the unit did not trip, so it rode through whatever the depth"),
+        );
+    }
+    let Some(deep) = deep else {
+        return measured.decide(
+            Verdict::Inconclusive,
+            Reason::DepthUnresolved,
+            format!("{smear}, and the verdict on the trip depends on it"),
+        );
+    };
+    let deepest = judge(r, deep, conn, timing, cessation);
+    if deepest.verdict == measured.verdict {
+        let detail = format!(
+            "{}; {smear}, but the verdict is the same for every depth down to {}",
+            measured.detail,
+            if deep.lower { "0 pu" } else { "any height" }
+        );
+        let v = measured.verdict;
+        let reason = measured.reason.unwrap_or(Reason::NoTrip);
+        measured.decide(v, reason, detail)
+    } else {
+        let detail = format!(
+            "{smear}: as measured the verdict is {}, for a deeper fault it would be {}, so the data cannot decide",
+            measured.verdict.name(),
+            deepest.verdict.name()
+        );
+        measured.decide(Verdict::Inconclusive, Reason::DepthUnresolved, detail)
     }
 }

@@ -95,6 +95,12 @@ pub struct SynthSpec {
     pub decimal_comma: bool,
     pub time_format: TimeFormat,
     pub status_column: bool,
+    /// Voltage profile `(from time s, pu)` instead of one fault; the last
+    /// step is the recovery. Empty: the fault of `fault_start_s`,
+    /// `fault_duration_s` and `residual_pu`.
+    pub steps: Vec<(f64, f64)>,
+    /// `Acb`: the file's b and c channels hold phases c and b.
+    pub phase_order: crate::model::PhaseOrder,
 }
 
 impl SynthSpec {
@@ -136,6 +142,8 @@ impl SynthSpec {
             decimal_comma: false,
             time_format: TimeFormat::Seconds,
             status_column: false,
+            steps: Vec::new(),
+            phase_order: crate::model::PhaseOrder::Abc,
         }
     }
 
@@ -211,7 +219,22 @@ pub fn generate(
     let a = sequence::a();
     let a2 = a * a;
     let jump = spec.phase_jump_deg.to_radians();
-    let fault_end = spec.fault_start_s + spec.fault_duration_s;
+    let (fault_start, fault_end) = match (spec.steps.first(), spec.steps.last()) {
+        (Some(a), Some(b)) if spec.steps.len() > 1 => (a.0, b.0),
+        _ => (
+            spec.fault_start_s,
+            spec.fault_start_s + spec.fault_duration_s,
+        ),
+    };
+    let recovery = spec.steps.last().map_or(spec.recovery_pu, |s| s.1);
+    // The fault's voltage at t: per phase residuals, or the step profile.
+    let fault_level = |t: f64| -> [f64; 3] {
+        match spec.steps.iter().rev().find(|s| s.0 <= t) {
+            Some(s) if !spec.steps.is_empty() => [s.1; 3],
+            _ => spec.residual_pu,
+        }
+    };
+    let acb = spec.phase_order == crate::model::PhaseOrder::Acb;
     let ip0 = spec.p0_pu / spec.prefault_pu;
     let iq0 = spec.q0_pu / spec.prefault_pu;
     let mut unit = Unit {
@@ -242,16 +265,20 @@ pub fn generate(
     let mut vals: SampleValues = [0.0; 7];
     for m in 0..n {
         let t = m as f64 * dt;
-        let in_fault = t >= spec.fault_start_s && t < fault_end;
-        let after = t >= fault_end;
+        let in_window = t >= fault_start && t < fault_end;
         // Grid voltage phasors (pu of the phase base).
-        let (mags, ang) = if in_fault {
-            (spec.residual_pu, jump)
-        } else if after {
-            ([spec.recovery_pu; 3], 0.0)
+        let (mags, ang) = if in_window {
+            (fault_level(t), jump)
+        } else if t >= fault_end {
+            ([recovery; 3], 0.0)
         } else {
             ([spec.prefault_pu; 3], 0.0)
         };
+        // With a step profile, a step back to normal between faults counts
+        // as "after" for the unit (its active power ramps back).
+        let in_fault = in_window
+            && (spec.steps.is_empty() || mags.iter().any(|m| (m - spec.prefault_pu).abs() > 0.05));
+        let after = t >= fault_start && !in_fault;
         let va = Complex64::from_polar(mags[0], ang);
         let vb = Complex64::from_polar(mags[1], ang - 2.0 * PI / 3.0);
         let vc = Complex64::from_polar(mags[2], ang + 2.0 * PI / 3.0);
@@ -330,6 +357,10 @@ pub fn generate(
                 for k in 0..3 {
                     pv[k] = inst(phase_v[k]) + harm(k, &mut rng);
                 }
+                if acb {
+                    // The file's b and c columns hold phases c and b.
+                    pv.swap(1, 2);
+                }
                 let vout = match spec.connection {
                     Connection::PhaseToNeutral => pv,
                     Connection::PhaseToPhase => [pv[0] - pv[1], pv[1] - pv[2], pv[2] - pv[0]],
@@ -344,6 +375,9 @@ pub fn generate(
                         inst(phase_i[k]) + harm(k, &mut rng)
                     };
                     vals[3 + k] = ival * ifactor;
+                }
+                if acb {
+                    vals.swap(4, 5);
                 }
             }
             SynthLayout::Rms => {

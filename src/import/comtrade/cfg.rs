@@ -374,6 +374,15 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
             return Err(InputError::new(path, format!("'{s}' is not 'samp,endsamp'")).line(ln));
         }
         let samp: f64 = num(path, ln, 0, "samp", f[0])?;
+        if !samp.is_finite() {
+            return Err(InputError::new(
+                path,
+                format!("sampling rate '{}' is not a finite number", f[0].trim()),
+            )
+            .line(ln)
+            .column(1)
+            .hint("give the rate in Hz, or 0 when the timestamps are the time base"));
+        }
         let end: u64 = num(path, ln, 1, "endsamp", f[1])?;
         if end < total_samples {
             return Err(InputError::new(path, "endsamp decreases")

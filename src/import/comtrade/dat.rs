@@ -460,11 +460,20 @@ pub(super) fn stream(
                     )))
                     .hint("the phasor analysis needs every sample: cut the recording before the gap or fill it"));
                 }
-                cols[c].push(if m.digital.is_some() {
+                let y = if m.digital.is_some() {
                     x
                 } else {
                     (m.a * x + m.b) * m.k
-                });
+                };
+                if !y.is_finite() {
+                    return Err(place(d.err(format!(
+                        "sample {sample_no} of channel '{}' is not a finite number after scaling (a·x + b, ratios): {x} raw",
+                        m.name
+                    )))
+                    .field(m.name.clone())
+                    .hint("check the channel's multiplier a, offset b and primary/secondary ratios in the configuration"));
+                }
+                cols[c].push(y);
             }
             index += 1;
         }

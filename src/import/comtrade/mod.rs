@@ -325,7 +325,7 @@ impl ComtradeSource {
             }
         }
         let keys: Vec<ChannelKey> = mapped.iter().map(|m| m.key).collect();
-        check_channel_set(path, &keys)?;
+        check_channel_set(path, &keys, connection)?;
         let kind = if keys.contains(&ChannelKey::VPos) {
             RecordingKind::RmsLevel
         } else {
@@ -421,7 +421,7 @@ impl ComtradeSource {
                             cfg.analogs[i].unit,
                             if cfg.analogs[i].is_primary { "P" } else { "S" }
                         ),
-                        if k.is_phase_voltage()
+                        if k.is_voltage()
                             && !matches!(unit_kind(&cfg.analogs[i].unit), UnitKind::Pu)
                         {
                             "V"
@@ -649,7 +649,7 @@ fn resolve(
         } else {
             a.primary / a.secondary
         };
-        let override_unit = if key.is_phase_voltage() {
+        let override_unit = if key.is_voltage() {
             map.voltage_unit
                 .map(|u| (u.factor(), u == VoltageUnit::Pu, u.label()))
         } else if key.is_phase_current() {
@@ -672,7 +672,7 @@ fn resolve(
                     f
                 }
             }
-            (UnitKind::Voltage(f), None) if key.is_phase_voltage() => f,
+            (UnitKind::Voltage(f), None) if key.is_voltage() => f,
             (UnitKind::Current(f), None) if key.is_phase_current() => f,
             (UnitKind::Pu, None) => 1.0,
             (UnitKind::Other, None) if key.is_rms_level() => 1.0,
@@ -691,13 +691,33 @@ fn resolve(
                 ));
             }
         };
+        let k = ps * factor;
+        if !(k.is_finite() && (a.a * k).is_finite() && (a.b * k).is_finite()) || k == 0.0 {
+            return Err(InputError::new(
+                path,
+                format!(
+                    "channel '{}': the scaling a = {}, b = {}{} gives no finite values",
+                    a.name,
+                    a.a,
+                    a.b,
+                    if a.is_primary {
+                        String::new()
+                    } else {
+                        format!(", primary/secondary = {}/{}", a.primary, a.secondary)
+                    }
+                ),
+            )
+            .line(a.line)
+            .field(a.name.clone())
+            .hint("correct the channel's multiplier, offset or ratios in the configuration"));
+        }
         mapped.push(Mapped {
             key,
             analog: Some(i),
             digital: None,
             a: a.a,
             b: a.b,
-            k: ps * factor,
+            k,
             name: a.name.clone(),
         });
     }
