@@ -355,3 +355,65 @@ fn sample_plan_gives_the_designed_verdicts() {
         .unwrap()
         .contains("not a certification"));
 }
+
+#[test]
+fn inspect_json_is_versioned_and_follows_its_committed_schema() {
+    // Decision F.20: `inspect --json` carries schema_version 1 and a
+    // committed schema (regenerate with UPDATE_SCHEMAS=1).
+    let generated = holdfast::commands::inspect::schema();
+    let path = root().join("schemas/inspect-v1.schema.json");
+    if std::env::var_os("UPDATE_SCHEMAS").is_some() {
+        std::fs::write(&path, &generated).unwrap();
+    }
+    let committed = std::fs::read_to_string(&path).unwrap_or_default();
+    assert_eq!(
+        committed, generated,
+        "schemas/inspect-v1.schema.json is stale: run UPDATE_SCHEMAS=1 cargo test --test contract"
+    );
+    let schema: Value = serde_json::from_str(&committed).unwrap();
+    let validator = jsonschema::validator_for(&schema).expect("valid schema");
+    for (file, extra) in [
+        ("sample-data/recordings/t01-deep-symmetrical.csv", vec![]),
+        (
+            "sample-data/recordings/t14-comtrade-single-phase.cff",
+            vec!["--map", "status=status"],
+        ),
+        // Without ratings: channels and sampling only, no analysis.
+        (
+            "sample-data/recordings/t04-trip-inside.csv",
+            vec!["--no-ratings"],
+        ),
+    ] {
+        let mut cmd = Command::cargo_bin("holdfast").unwrap();
+        cmd.current_dir(root()).args(["inspect", file, "--json"]);
+        if extra.first() != Some(&"--no-ratings") {
+            cmd.args([
+                "--rated-kv",
+                "0.69",
+                "--rated-mva",
+                "4.2",
+                "--frequency",
+                "50",
+            ]);
+            cmd.args(&extra);
+        }
+        let out = cmd.output().unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+        assert_eq!(v["schema_version"], 1);
+        let errors: Vec<String> = validator
+            .iter_errors(&v)
+            .map(|e| format!("{e} at {}", e.instance_path))
+            .collect();
+        assert!(errors.is_empty(), "{file}: {errors:#?}");
+        if extra.is_empty() {
+            // Waveforms: the inception of the 0.5 s fault (decision D.14).
+            let inc = v["disturbances"][0]["inception_s"].as_f64().unwrap();
+            assert!((inc - 0.5).abs() < 1e-3, "{inc}");
+        }
+    }
+}

@@ -103,7 +103,7 @@ impl ApplicableVoltage {
 }
 
 /// Thresholds for disturbance and trip detection.
-#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, schemars::JsonSchema)]
 pub struct DetectionSettings {
     pub applicable: ApplicableVoltage,
     pub below_pu: f64,
@@ -149,7 +149,7 @@ impl DetectionSettings {
     }
 }
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, schemars::JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum DisturbanceKind {
     Undervoltage,
@@ -165,7 +165,7 @@ impl DisturbanceKind {
     }
 }
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, schemars::JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum Balance {
     Symmetrical,
@@ -185,7 +185,7 @@ impl Balance {
 }
 
 /// Means over the pre-fault window.
-#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, schemars::JsonSchema)]
 pub struct Prefault {
     pub from_s: f64,
     pub to_s: f64,
@@ -201,7 +201,7 @@ pub struct Prefault {
 }
 
 /// Mean residual voltages over the settled part of a disturbance.
-#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, schemars::JsonSchema)]
 pub struct Residual {
     pub v1_pu: f64,
     pub v2_pu: Option<f64>,
@@ -211,7 +211,7 @@ pub struct Residual {
     pub line_pu: Option<[f64; 3]>,
 }
 
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, schemars::JsonSchema)]
 pub struct Disturbance {
     pub kind: DisturbanceKind,
     pub start_s: f64,
@@ -557,7 +557,7 @@ pub fn detect_disturbances(
 }
 
 /// How the trip state was determined.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, schemars::JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum TripMethod {
     Status,
@@ -566,7 +566,7 @@ pub enum TripMethod {
     None,
 }
 
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, schemars::JsonSchema)]
 pub struct TripInfo {
     pub tripped: bool,
     pub time_s: Option<f64>,

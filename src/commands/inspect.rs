@@ -20,7 +20,7 @@ impl FrameSink for Discard {
     fn block(&mut self, _: &Block<'_>) {}
 }
 
-#[derive(Serialize)]
+#[derive(Serialize, schemars::JsonSchema)]
 struct AnalysisFacts {
     frequency_hz: f64,
     /// Samples in one DFT window (0 for RMS-level recordings).
@@ -30,8 +30,12 @@ struct AnalysisFacts {
     points: usize,
 }
 
-#[derive(Serialize)]
-struct InspectReport {
+/// `holdfast inspect --json`, schema version 1 (`schemas/inspect-v1.schema.json`).
+#[derive(Serialize, schemars::JsonSchema)]
+#[schemars(title = "holdfast inspect report")]
+pub struct InspectReport {
+    /// 1 for this layout; later versions only add keys.
+    schema_version: u32,
     recording: RecordingInfo,
     analysis: Option<AnalysisFacts>,
     detection: Option<DetectionSettings>,
@@ -80,6 +84,7 @@ pub fn run(args: &InspectArgs) -> anyhow::Result<u8> {
         }
         let info = source.stream(&mut Discard)?;
         InspectReport {
+            schema_version: 1,
             recording: info,
             analysis: None,
             detection: None,
@@ -113,6 +118,7 @@ pub fn run(args: &InspectArgs) -> anyhow::Result<u8> {
         };
         let trip = detect_trip(&analysed.series, &det);
         InspectReport {
+            schema_version: 1,
             analysis: Some(AnalysisFacts {
                 frequency_hz: f,
                 dft_window_samples: analysed.dft_window,
@@ -136,6 +142,12 @@ pub fn run(args: &InspectArgs) -> anyhow::Result<u8> {
         write_text(&mut out, &report)?;
     }
     Ok(0)
+}
+
+/// The JSON Schema of `inspect --json`.
+pub fn schema() -> String {
+    let s = schemars::schema_for!(InspectReport);
+    serde_json::to_string_pretty(&s).unwrap_or_default() + "\n"
 }
 
 fn fmt_s(x: f64) -> String {
@@ -258,6 +270,23 @@ fn write_text(out: &mut dyn Write, r: &InspectReport) -> std::io::Result<()> {
                     s += &format!(", ab/bc/ca {:.4}/{:.4}/{:.4} pu", l[0], l[1], l[2]);
                 }
                 writeln!(out, "{s}")?;
+            }
+            match (dist.inception_s, dist.clearance_s) {
+                (Some(a), Some(b)) => writeln!(
+                    out,
+                    "     waveform inception {}, clearance {}: fault {}",
+                    fmt_s(a),
+                    fmt_s(b),
+                    fmt_s(b - a)
+                )?,
+                (Some(a), None) => writeln!(out, "     waveform inception {}", fmt_s(a))?,
+                _ => {}
+            }
+            if let Some(k) = dist.prefault_from {
+                writeln!(
+                    out,
+                    "     references inherited from disturbance #{k} (no clean pre-fault window in between)"
+                )?;
             }
             match (&dist.prefault, &dist.prefault_problem) {
                 (Some(p), _) => {

@@ -11,7 +11,9 @@ use serde::Serialize;
 use std::fmt;
 
 /// The signals a recording channel can be mapped to (the `--map` keys).
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord, Serialize)]
+#[derive(
+    Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord, Serialize, schemars::JsonSchema,
+)]
 #[serde(rename_all = "snake_case")]
 pub enum ChannelKey {
     Va,
@@ -183,7 +185,7 @@ impl CurrentUnit {
 }
 
 /// How the three voltage channels were measured.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Default)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Default, schemars::JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum Connection {
     #[default]
@@ -266,7 +268,7 @@ impl Ratings {
 }
 
 /// Which signals a recording carries.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, schemars::JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum RecordingKind {
     /// Instantaneous three-phase waveforms (voltages, optionally currents).
@@ -276,7 +278,7 @@ pub enum RecordingKind {
 }
 
 /// One mapped channel of a recording.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, schemars::JsonSchema)]
 pub struct ChannelInfo {
     pub key: ChannelKey,
     /// Column or channel name in the source file.
@@ -292,7 +294,7 @@ pub struct ChannelInfo {
 }
 
 /// Facts about an imported recording.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, schemars::JsonSchema)]
 pub struct RecordingInfo {
     pub path: String,
     /// `CSV` or `COMTRADE`.

@@ -331,19 +331,42 @@ pub fn figures(inp: &FigureInput<'_>) -> Vec<Figure> {
             let (Some(d), Some(req)) = (inp.disturbances.get(k), c.required_pu) else {
                 continue;
             };
-            let Some(pre) = d.prefault else { continue };
-            let (v_pre, iq_pre) = match seq {
-                Sequence::Positive => (pre.v1_pu, pre.iq_pu.unwrap_or(0.0)),
-                Sequence::Negative => (
-                    pre.v2_pu.unwrap_or(0.0),
-                    pre.iq2_pu.filter(|x| x.is_finite()).unwrap_or(0.0),
-                ),
+            // The references and segments the check used (nothing is
+            // re-derived here).
+            let Some(iq_pre) = c.reference_pu else {
+                continue;
+            };
+            let v_pre = match (seq, d.prefault) {
+                (Sequence::Positive, Some(p)) => p.v1_pu,
+                (Sequence::Negative, Some(p)) => p.v2_pu.unwrap_or(0.0),
+                (_, None) => continue,
             };
             let end = d.end_s.unwrap_or(t_last);
-            let dir = if req >= 0.0 { 1.0 } else { -1.0 };
+            let t0 = c.time_from_s.unwrap_or(d.start_s);
             let [tlo, thi] = rc.tolerance_pu;
+            // Quasi-steady segments: (from, to, requirement, band from).
+            let segs: Vec<(f64, f64, f64, f64)> = if c.segments.is_empty() {
+                vec![(t0, end, req, t0 + rc.settling_time_s)]
+            } else {
+                c.segments
+                    .iter()
+                    .enumerate()
+                    .map(|(j, g)| {
+                        let clock = if j == 0 { t0 } else { g.start_s };
+                        (
+                            g.start_s,
+                            g.end_s,
+                            g.required_pu,
+                            clock + rc.settling_time_s,
+                        )
+                    })
+                    .collect()
+            };
             let required: Vec<(f64, f64)> = match rc.follow {
-                Follow::Settled => vec![(d.start_s, iq_pre + req), (end, iq_pre + req)],
+                Follow::Settled => segs
+                    .iter()
+                    .flat_map(|(a, b, r, _)| [(*a, iq_pre + r), (*b, iq_pre + r)])
+                    .collect(),
                 Follow::Instantaneous => plot::minmax_decimate(t, vq, d.start_s, end, POINTS / 4)
                     .into_iter()
                     .map(|(x, v)| {
@@ -367,20 +390,24 @@ pub fn figures(inp: &FigureInput<'_>) -> Vec<Figure> {
                 dashed: true,
                 width: 2,
             });
-            let (a, b) = (d.start_s + rc.settling_time_s, end - cycle);
-            if b > a {
+            for (_, b, r, from) in &segs {
+                let until = b - cycle;
+                if until <= *from {
+                    continue;
+                }
+                let dir = if *r >= 0.0 { 1.0 } else { -1.0 };
                 let (l, h) = if dir > 0.0 {
-                    (req + tlo, req + thi)
+                    (r + tlo, r + thi)
                 } else {
-                    (req - thi, req - tlo)
+                    (r - thi, r - tlo)
                 };
                 ys.extend([iq_pre + l, iq_pre + h]);
                 f.shades.push(Shade {
                     polygon: vec![
-                        (a, iq_pre + l),
-                        (b, iq_pre + l),
-                        (b, iq_pre + h),
-                        (a, iq_pre + h),
+                        (*from, iq_pre + l),
+                        (until, iq_pre + l),
+                        (until, iq_pre + h),
+                        (*from, iq_pre + h),
                     ],
                     color: plot::MARK,
                     opacity: 0.18,
@@ -389,17 +416,17 @@ pub fn figures(inp: &FigureInput<'_>) -> Vec<Figure> {
             if let (Some(at), Some(rise)) = (c.at_s, c.measured) {
                 f.marks.push(Mark {
                     t: at,
-                    v: iq_pre + 0.9 * req,
+                    v: iq_pre + 0.9 * segs[0].2,
                     label: format!("90 % after {:.1} ms", rise * 1e3),
                 });
             }
             f.vlines.push(VLine {
-                t: d.start_s + rc.rise_time_s,
+                t: t0 + rc.rise_time_s,
                 label: format!("rise limit {:.0} ms", rc.rise_time_s * 1e3),
             });
             if let Some(st) = c.settling_time_s {
                 f.vlines.push(VLine {
-                    t: d.start_s + st,
+                    t: t0 + st,
                     label: format!("settled {:.1} ms", st * 1e3),
                 });
             }
