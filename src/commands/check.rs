@@ -105,9 +105,10 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
                 || m.voltage_unit.is_some()
                 || m.current_unit.is_some()
                 || m.voltage_connection.is_some()
+                || m.phase_order.is_some()
             {
                 return Err(UsageError(
-                    "rating and --map flags belong to the one-off form (--rules); a plan has its own unit and channels blocks"
+                    "rating, --map and --phase-order flags belong to the one-off form (--rules); a plan has its own unit, channels and phase_order keys"
                         .into(),
                 )
                 .into());
