@@ -549,3 +549,112 @@ fn gain_and_realisation_read_what_the_unit_did() {
     assert!(csv.lines().next().unwrap().ends_with(",reason"));
     assert!(csv.contains(",as_planned"), "{csv}");
 }
+
+#[test]
+fn negative_sequence_band_time_reference_and_short_faults() {
+    // D13: a two-phase dip (a, b to 0.5 pu): V2 = 0.167 pu. With k2 = 3 the
+    // unit injects −3·(0.167 − 0.1) = −0.2 pu; a rule asking k = 2 requires
+    // r = −0.133 pu. With tolerance [−0.05, +0.1] the mirrored band
+    // [r + s·lo, r + s·hi], s = −1, runs from −0.083 to −0.233 pu and holds
+    // −0.2 pu; the unmirrored [r + lo, r + hi] = [−0.183, −0.033] would not.
+    let d = tempfile::tempdir().unwrap();
+    let f = synth(
+        d.path(),
+        "unb.csv",
+        &[
+            "--duration",
+            "2.5",
+            "--residuals",
+            "0.5,0.5,1",
+            "--fault-duration",
+            "0.3",
+            "--k2-gain",
+            "3",
+            "--status",
+        ],
+    );
+    let neg = "  - { id: iq2, type: reactive_current, sequence: negative, gain: 2, dead_band_pu: 0.1, rise_time_s: 0.04, settling_time_s: 0.08, tolerance_pu: [-0.05, 0.1] TF }\n";
+    let r = rules(d.path(), &neg.replace(" TF", ""), "");
+    let run = check(d.path(), &r, &[&f], &["--map", "status=status"]);
+    let c = check_of(&run, 0, "iq2");
+    assert_eq!(c["verdict"], "pass", "{}", c["detail"]);
+    assert!(c["required_pu"].as_f64().unwrap() < 0.0);
+    // D14: time_from: inception counts from the waveform inception (1.0 s),
+    // before the phasor start, so the rise time is longer by their gap.
+    let r2 = rules(d.path(), &neg.replace(" TF", ", time_from: inception"), "");
+    let run2 = check(d.path(), &r2, &[&f], &["--map", "status=status"]);
+    let c2 = check_of(&run2, 0, "iq2");
+    let res = run2.results.as_ref().unwrap();
+    let dist = &res["tests"][0]["disturbances"][0];
+    let gap = dist["start_s"].as_f64().unwrap() - dist["inception_s"].as_f64().unwrap();
+    assert!(gap > 0.0);
+    let (a, b) = (
+        c["measured"].as_f64().unwrap(),
+        c2["measured"].as_f64().unwrap(),
+    );
+    assert!((b - a - gap).abs() < 1e-3, "{a} {b} {gap}");
+    assert!((c2["time_from_s"].as_f64().unwrap() - 1.0).abs() < 1e-3);
+    // D15: a 60 ms fault is shorter than the settling time plus a cycle:
+    // judged on the rise time only.
+    let short = synth(
+        d.path(),
+        "short.csv",
+        &[
+            "--duration",
+            "2",
+            "--residual",
+            "0.5",
+            "--fault-duration",
+            "0.06",
+            "--status",
+        ],
+    );
+    let iq = "  - { id: iq, type: reactive_current, gain: 2, dead_band_pu: 0.1, rise_time_s: 0.03, settling_time_s: 0.06, tolerance_pu: [-0.1, 0.2] }\n";
+    let r3 = rules(d.path(), iq, "");
+    let run3 = check(d.path(), &r3, &[&short], &["--map", "status=status"]);
+    let c3 = check_of(&run3, 0, "iq");
+    assert!(
+        c3["detail"]
+            .as_str()
+            .unwrap()
+            .contains("too short for the settling time"),
+        "{}",
+        c3["detail"]
+    );
+}
+
+#[test]
+fn report_and_table_show_reasons() {
+    // B6: the reason reads in the terminal table, summary.csv and the report.
+    let d = tempfile::tempdir().unwrap();
+    let f = synth(
+        d.path(),
+        "trip.csv",
+        &[
+            "--duration",
+            "2.5",
+            "--residual",
+            "0.5",
+            "--fault-duration",
+            "0.3",
+            "--trip-at",
+            "1.15",
+            "--status",
+        ],
+    );
+    let r = rules(d.path(), LVRT, "");
+    let run = check(d.path(), &r, &[&f], &["--map", "status=status"]);
+    assert_eq!(run.code, 1);
+    assert!(run.stdout.contains("| reason "), "{}", run.stdout);
+    assert!(run.stdout.contains("trip_inside_zone"), "{}", run.stdout);
+    let pack = std::fs::read_dir(d.path())
+        .unwrap()
+        .filter_map(|e| e.ok())
+        .find(|e| e.file_name().to_string_lossy().starts_with("pack-"))
+        .unwrap()
+        .path();
+    let html = std::fs::read_to_string(pack.join("report.html")).unwrap();
+    assert!(html.contains("<th>reason</th>") && html.contains("trip inside zone"));
+    let c = check_of(&run, 0, "lvrt");
+    assert!(c["margin"].as_f64().unwrap() < 0.0);
+}
