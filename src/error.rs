@@ -51,9 +51,15 @@ impl InputError {
     }
 }
 
+/// Longest quoted passage of file content an error message shows.
+pub const EXCERPT_CHARS: usize = 60;
+
 impl fmt::Display for InputError {
+    /// Paths, names and messages may hold text from the files: control
+    /// characters are escaped and quoted content is cut to a short excerpt.
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        write!(f, "{}", self.path.display())?;
+        use crate::text;
+        write!(f, "{}", text::line(&self.path.display().to_string()))?;
         if let Some(l) = self.line {
             write!(f, ":{l}")?;
             if let Some(c) = self.column {
@@ -62,11 +68,13 @@ impl fmt::Display for InputError {
         }
         write!(f, ": ")?;
         if let Some(field) = &self.field {
-            write!(f, "'{field}': ")?;
+            write!(f, "'{}': ", text::excerpt(field, EXCERPT_CHARS))?;
         }
-        write!(f, "{}", self.message)?;
+        let msg = text::shorten_quotes(&self.message, EXCERPT_CHARS);
+        write!(f, "{}", text::lines(&msg))?;
         if let Some(h) = &self.hint {
-            write!(f, "\n  hint: {h}")?;
+            let h = text::shorten_quotes(h, 4 * EXCERPT_CHARS);
+            write!(f, "\n  hint: {}", text::lines(&h))?;
         }
         Ok(())
     }
@@ -80,7 +88,7 @@ pub struct UsageError(pub String);
 
 impl fmt::Display for UsageError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(&self.0)
+        f.write_str(&crate::text::lines(&self.0))
     }
 }
 

@@ -23,9 +23,10 @@ fn main() -> ExitCode {
             }) {
                 return ExitCode::SUCCESS;
             }
-            eprintln!("error: {e}");
+            // Messages may carry text from the input files: escaped.
+            eprintln!("error: {}", holdfast::text::lines(&e.to_string()));
             for cause in e.chain().skip(1) {
-                eprintln!("  caused by: {cause}");
+                eprintln!("  caused by: {}", holdfast::text::lines(&cause.to_string()));
             }
             ExitCode::from(2)
         }

@@ -242,7 +242,7 @@ pub struct LoadedPlan {
 
 /// Loads and validates a plan; all problems are reported at once.
 pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
-    let text = yaml::read_text(path, "test plan")?;
+    let (text, sha256) = yaml::read_text_hashed(path, "test plan")?;
     let plan: Plan = yaml::parse(path, &text)?;
     let dir = path.parent().unwrap_or(Path::new(""));
     let mut errs = Vec::new();
@@ -338,8 +338,6 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
     if !errs.is_empty() {
         return Err(InputErrors(errs));
     }
-    let sha256 = crate::digest::sha256_file(path)
-        .map_err(|e| InputError::new(path, format!("cannot read test plan: {e}")))?;
     Ok(LoadedPlan {
         ratings: Ratings {
             rated_kv: plan.unit.rated_voltage_kv,

@@ -48,27 +48,11 @@ fn load_rules(
     let mut errs = Vec::new();
     let mut used = std::collections::BTreeSet::new();
     for (p, plan_values) in sets {
-        let declared = rules::load(p).map(|r| {
-            r.rules
-                .parameters
-                .iter()
-                .map(|x| x.name.clone())
-                .collect::<Vec<_>>()
-        });
-        let mut choices: rules::params::Choices = plan_values
-            .iter()
-            .map(|(k, v)| (k.clone(), (*v, "plan".to_string())))
-            .collect();
-        if let Ok(names) = &declared {
-            for (k, v) in cli {
-                if names.contains(k) {
-                    choices.insert(k.clone(), (*v, "--set".to_string()));
-                    used.insert(k.clone());
-                }
+        match rules::load_choosing(p, plan_values, cli) {
+            Ok((r, names)) => {
+                used.extend(names);
+                out.push(r)
             }
-        }
-        match rules::load_with(p, &choices) {
-            Ok(r) => out.push(r),
             Err(e) => errs.extend(e.0),
         }
     }
@@ -221,8 +205,13 @@ pub fn run_test(
     let analysed = analyse(source, &settings)?;
     let det = engine::detection_settings(&rules.rules, ratings.frequency_hz);
     let outcome = engine::evaluate(&analysed.series, &rules.rules, &det, test.expect.as_ref());
-    let sha256 = crate::digest::sha256_file(&test.file)
-        .map_err(|e| InputError::new(&test.file, format!("cannot read recording: {e}")))?;
+    // The digest of the bytes the importer read, not of a second reading.
+    let sha256 = analysed
+        .info
+        .files
+        .first()
+        .map(|f| f.1.clone())
+        .ok_or_else(|| InputError::new(&test.file, "the recording's digest is missing"))?;
     let info = &analysed.info;
     let mut figures = Vec::new();
     if let (Some(dir), Some(applicable)) = (plots, outcome.applicable.as_deref()) {
@@ -273,6 +262,14 @@ pub fn run_test(
             ),
             samples: Some(info.samples),
             header: info.header.clone(),
+            files: info
+                .files
+                .iter()
+                .map(|(path, sha256)| crate::rules::result::HashedFile {
+                    path: path.clone(),
+                    sha256: sha256.clone(),
+                })
+                .collect(),
             channels: info
                 .channels
                 .iter()
@@ -388,37 +385,58 @@ fn command_line() -> String {
         .join(" ")
 }
 
-/// Writes the evidence pack into `dir`.
+/// Every file a job reads: plan, rule sets, recordings and their COMTRADE
+/// data files (an `--out` that holds one is refused).
+fn inputs_of(job: &Job) -> Vec<PathBuf> {
+    let mut v: Vec<PathBuf> = job.plan.iter().map(|(p, _)| p.clone()).collect();
+    v.extend(job.rules.iter().map(|r| r.path.clone()));
+    for t in &job.tests {
+        v.push(t.file.clone());
+        if t.file
+            .extension()
+            .is_some_and(|e| e.eq_ignore_ascii_case("cfg"))
+        {
+            v.push(t.file.with_extension("dat"));
+            v.push(t.file.with_extension("DAT"));
+        }
+    }
+    v
+}
+
+/// Writes the evidence pack's files into the pack being built.
 pub fn write_pack(
     results: &Results,
     figures: Vec<Vec<RenderedFigure>>,
-    dir: &Path,
+    pack: &report::pack::PackWriter,
 ) -> anyhow::Result<()> {
-    std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
-    report::write_json(results, &dir.join("results.json"))?;
-    report::summary_csv::write(results, &dir.join("summary.csv"))?;
+    pack.file("results.json", &report::json(results)?)?;
+    pack.file("summary.csv", &report::summary_csv::render(results)?)?;
     let html = report::html::render(results, figures).context("rendering report.html")?;
-    let path = dir.join("report.html");
-    std::fs::write(&path, html).with_context(|| format!("writing {}", path.display()))?;
+    pack.file("report.html", html.as_bytes())?;
     Ok(())
 }
 
 pub fn run(args: &CheckArgs) -> anyhow::Result<u8> {
     let job = job_from_args(args)?;
-    let plots = args.out.join("plots");
-    std::fs::create_dir_all(&plots).with_context(|| format!("creating {}", plots.display()))?;
+    let pack = report::pack::PackWriter::begin(&args.out, &inputs_of(&job))?;
+    let plots = pack.subdir("plots")?;
     let (results, figures) = run_job(
         &job,
         args.jobs,
         std::io::stderr().is_terminal(),
         Some(&plots),
     )?;
-    write_pack(&results, figures, &args.out)?;
+    write_pack(&results, figures, &pack)?;
+    pack.commit()?;
     let stdout = std::io::stdout();
     let tty = stdout.is_terminal();
     let mut out = stdout.lock();
     write!(out, "{}", report::table::render(&results, tty))?;
-    writeln!(out, "\nEvidence pack: {}", args.out.display())?;
+    writeln!(
+        out,
+        "\nEvidence pack: {}",
+        crate::text::line(&args.out.display().to_string())
+    )?;
     writeln!(out, "{CAUTION}")?;
     Ok(if results.verdict == Verdict::Pass {
         0

@@ -139,7 +139,11 @@ pub fn run(args: &InspectArgs) -> anyhow::Result<u8> {
         serde_json::to_writer_pretty(&mut out, &report).context("writing JSON to stdout")?;
         writeln!(out)?;
     } else {
-        write_text(&mut out, &report)?;
+        // Channel names, header fields and notes come from the file:
+        // escaped before they reach the terminal.
+        let mut buf = Vec::new();
+        write_text(&mut buf, &report)?;
+        out.write_all(crate::text::lines(&String::from_utf8_lossy(&buf)).as_bytes())?;
     }
     Ok(0)
 }

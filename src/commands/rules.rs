@@ -2,7 +2,6 @@
 
 use crate::cli::{RulesArgs, RulesCommand};
 use crate::rules::spec::CheckSpec;
-use anyhow::Context;
 use std::io::Write;
 
 pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
@@ -11,7 +10,9 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
             let choices = set_choices(set)?;
             let loaded = crate::rules::load_with(file, &choices)?;
             let r = &loaded.rules;
-            let mut out = std::io::stdout().lock();
+            // Written to a buffer first: ids and titles from the file are
+            // escaped before they reach the terminal.
+            let mut out: Vec<u8> = Vec::new();
             writeln!(out, "{}: ok", file.display())?;
             writeln!(out, "  id      {}", r.id)?;
             writeln!(out, "  title   {}", r.title)?;
@@ -41,6 +42,9 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
                 };
                 writeln!(out, "  check   {:<14} {what}", c.id())?;
             }
+            std::io::stdout()
+                .lock()
+                .write_all(crate::text::lines(&String::from_utf8_lossy(&out)).as_bytes())?;
             Ok(0)
         }
         RulesCommand::Schema => {
@@ -77,8 +81,10 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
         }
         RulesCommand::Plot { file, out, set } => {
             let loaded = crate::rules::load_with(file, &set_choices(set)?)?;
-            std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
-            let mut stdout = std::io::stdout().lock();
+            // The same safe writing as an evidence pack: a fresh folder
+            // moved into place, never over the rule set or through a link.
+            let pack = crate::report::pack::PackWriter::begin(out, std::slice::from_ref(file))?;
+            let mut written = Vec::new();
             for (id, spec) in crate::report::figures::rule_figures(&loaded.rules) {
                 let stem: String = id
                     .chars()
@@ -92,13 +98,17 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
                     .collect();
                 let (svg, _) = crate::report::plot::svg(&spec)
                     .map_err(|e| anyhow::anyhow!("drawing {id}: {e}"))?;
-                let svg_path = out.join(format!("{stem}.svg"));
-                std::fs::write(&svg_path, svg)
-                    .with_context(|| format!("writing {}", svg_path.display()))?;
-                let png_path = out.join(format!("{stem}.png"));
+                pack.file(&format!("{stem}.svg"), svg.as_bytes())?;
+                let png_path = pack.dir().join(format!("{stem}.png"));
                 crate::report::plot::png(&spec, &png_path)
                     .map_err(|e| anyhow::anyhow!("writing {}: {e}", png_path.display()))?;
-                writeln!(stdout, "{}\n{}", svg_path.display(), png_path.display())?;
+                written.push(out.join(format!("{stem}.svg")));
+                written.push(out.join(format!("{stem}.png")));
+            }
+            pack.commit()?;
+            let mut stdout = std::io::stdout().lock();
+            for w in written {
+                writeln!(stdout, "{}", crate::text::line(&w.display().to_string()))?;
             }
             Ok(0)
         }

@@ -17,6 +17,7 @@
 
 use super::{check_channel_set, ChannelMap, ImportOptions, Source};
 use crate::error::InputError;
+use crate::files::Hashing;
 use crate::model::{
     Block, ChannelInfo, ChannelKey, Connection, CurrentUnit, FrameSink, RecordingInfo,
     RecordingKind, VoltageUnit, N_KEYS,
@@ -28,6 +29,10 @@ use std::path::{Path, PathBuf};
 
 /// Bytes read per chunk.
 const CHUNK: usize = 4 << 20;
+/// Longest accepted line (header or data row).
+pub const MAX_LINE_BYTES: u64 = 16 << 20;
+/// Most columns accepted in a recording.
+pub const MAX_COLUMNS: usize = 100_000;
 /// Data rows used to estimate the nominal sample step at open.
 const STEP_ESTIMATE_ROWS: usize = 10_000;
 /// Regions smaller than this are parsed on one thread.
@@ -101,7 +106,7 @@ struct PartError {
 pub struct CsvSource {
     path: PathBuf,
     /// Taken by the reader stage when streaming starts.
-    file: Option<File>,
+    file: Option<Hashing<File>>,
     /// Unprocessed bytes, starting at the first data line.
     buf: Vec<u8>,
     eof: bool,
@@ -115,7 +120,12 @@ pub struct CsvSource {
     header: Vec<String>,
 }
 
-fn fill(file: &mut File, buf: &mut Vec<u8>, want: usize, path: &Path) -> Result<bool, InputError> {
+fn fill(
+    file: &mut impl Read,
+    buf: &mut Vec<u8>,
+    want: usize,
+    path: &Path,
+) -> Result<bool, InputError> {
     // Returns true at end of file.
     let start = buf.len();
     buf.resize(start + want, 0);
@@ -491,10 +501,7 @@ fn split_at_lines(region: &[u8], n: usize) -> Vec<&[u8]> {
 
 impl CsvSource {
     pub fn open(path: &Path, map: &ChannelMap, opts: &ImportOptions) -> Result<Self, InputError> {
-        let mut file = File::open(path).map_err(|e| {
-            InputError::new(path, format!("cannot open recording: {e}"))
-                .hint("check the path (plan paths are relative to the plan file)")
-        })?;
+        let mut file = Hashing::new(crate::files::open_regular(path, "recording")?);
         let mut buf = Vec::new();
         let mut eof = fill(&mut file, &mut buf, 1 << 20, path)?;
         // The header and the rows used to estimate the step must be complete.
@@ -511,7 +518,18 @@ impl CsvSource {
             return Err(InputError::new(path, "the file is empty")
                 .hint("a recording needs a header row and at least two data rows"));
         }
-        let header_end = memchr::memchr(b'\n', &buf).unwrap_or(buf.len());
+        let header_end = match memchr::memchr(b'\n', &buf) {
+            Some(i) => i,
+            None if eof => buf.len(),
+            None => {
+                return Err(InputError::new(
+                    path,
+                    format!("the header line is longer than {} bytes", buf.len()),
+                )
+                .line(1)
+                .hint("is this a CSV recording?"))
+            }
+        };
         let mut header_line = &buf[..header_end];
         if let [rest @ .., b'\r'] = header_line {
             header_line = rest;
@@ -525,6 +543,13 @@ impl CsvSource {
             .map(|f| String::from_utf8_lossy(strip_quotes(f)).trim().to_string())
             .collect();
         let ncols = header.len();
+        if ncols > MAX_COLUMNS {
+            return Err(InputError::new(
+                path,
+                format!("the header has {ncols} columns; at most {MAX_COLUMNS} are accepted"),
+            )
+            .line(1));
+        }
         if ncols < 2 {
             return Err(InputError::new(
                 path,
@@ -740,6 +765,7 @@ impl CsvSource {
             first_time: first_time_text.trim().to_string(),
             duration_s: 0.0,
             max_step_deviation: 0.0,
+            files: Vec::new(),
             header: vec![
                 (
                     "delimiter".into(),
@@ -777,10 +803,18 @@ impl CsvSource {
         // Estimate the nominal step from the first rows.
         let mut probe = Part::default();
         probe.reset(slot_keys.len());
+        // Complete lines only: when the first read stopped in the middle of
+        // a line (a wide file), the probe ends at the last complete one.
+        let complete = if eof {
+            buf.len()
+        } else {
+            memchr::memrchr(b'\n', &buf).map_or(0, |i| i + 1)
+        };
         let limit = memchr::memchr_iter(b'\n', &buf)
             .nth(STEP_ESTIMATE_ROWS)
             .map(|i| i + 1)
-            .unwrap_or(buf.len());
+            .unwrap_or(complete)
+            .min(complete);
         let probe_result = parse_region(&buf[..limit], &layout, &mut probe);
         let n = probe.time.len();
         // The median step: robust against a gap or a repeated row among the
@@ -890,13 +924,13 @@ struct Handover {
 /// Reader stage: sends regions that end at a line boundary (the last one at
 /// the end of the file); buffers come back through `recycle` for reuse.
 fn read_regions(
-    mut file: File,
+    mut file: Hashing<File>,
     first: Vec<u8>,
     mut eof: bool,
     path: &Path,
     tx: std::sync::mpsc::SyncSender<Result<Vec<u8>, InputError>>,
     recycle: std::sync::mpsc::Receiver<Vec<u8>>,
-) {
+) -> Option<String> {
     let mut carry = first;
     loop {
         let mut buf = recycle
@@ -911,7 +945,7 @@ fn read_regions(
                     Ok(e) => eof = e,
                     Err(e) => {
                         let _ = tx.send(Err(e));
-                        return;
+                        return None;
                     }
                 }
             }
@@ -925,13 +959,21 @@ fn read_regions(
                     break;
                 }
                 None => {
-                    // A line longer than the chunk: read more.
+                    // A line longer than the chunk: read more, up to the limit.
+                    if buf.len() as u64 > MAX_LINE_BYTES {
+                        let _ = tx.send(Err(InputError::new(
+                            path,
+                            format!("a line is longer than {MAX_LINE_BYTES} bytes"),
+                        )
+                        .hint("a recording has one sample per line; is this a CSV recording?")));
+                        return None;
+                    }
                     let more = buf.len().max(CHUNK);
                     match fill(&mut file, &mut buf, more, path) {
                         Ok(e) => eof = e,
                         Err(e) => {
                             let _ = tx.send(Err(e));
-                            return;
+                            return None;
                         }
                     }
                 }
@@ -939,10 +981,10 @@ fn read_regions(
         }
         let done = eof && carry.is_empty();
         if !buf.is_empty() && tx.send(Ok(buf)).is_err() {
-            return;
+            return None;
         }
         if done {
-            return;
+            return file.finish().ok().map(|(d, _)| d);
         }
     }
 }
@@ -1046,13 +1088,18 @@ impl Source for CsvSource {
         };
         let (tx, rx) = std::sync::mpsc::sync_channel::<Result<Vec<u8>, InputError>>(1);
         let (recycle_tx, recycle_rx) = std::sync::mpsc::channel::<Vec<u8>>();
+        let mut digest: Option<String> = None;
         std::thread::scope(|scope| -> Result<(), InputError> {
-            if let Some(file) = file {
-                let path = this.path.clone();
-                scope.spawn(move || read_regions(file, first, eof, &path, tx, recycle_rx));
-            } else {
-                drop(tx);
-            }
+            let mut reader = match file {
+                Some(file) => {
+                    let path = this.path.clone();
+                    Some(scope.spawn(move || read_regions(file, first, eof, &path, tx, recycle_rx)))
+                }
+                None => {
+                    drop(tx);
+                    None
+                }
+            };
             let rx = rx;
             let layout = &this.layout;
             let mut current: Vec<Part> = (0..threads).map(|_| Part::default()).collect();
@@ -1066,6 +1113,11 @@ impl Source for CsvSource {
                     Err(_) => None,
                 };
                 let Some(region) = region else {
+                    // The reader hashed every byte it read: the digest of
+                    // the file as analysed.
+                    if let Some(r) = reader.take() {
+                        digest = r.join().ok().flatten();
+                    }
                     return this.hand_over(
                         &mut current,
                         std::mem::take(&mut pending),
@@ -1118,6 +1170,9 @@ impl Source for CsvSource {
         let first = tc.first.unwrap_or(0.0);
         let duration = tc.prev - first;
         let mut info = self.info.clone();
+        info.files = digest
+            .map(|d| vec![(info.path.clone(), d)])
+            .unwrap_or_default();
         info.samples = n;
         info.duration_s = duration;
         info.sample_rate_hz = (n - 1) as f64 / duration;

@@ -315,6 +315,10 @@ pub struct RecordingInfo {
     /// Format-specific facts worth showing a reviewer (key, value).
     pub header: Vec<(String, String)>,
     pub notes: Vec<String>,
+    /// Every file read, with the SHA-256 of the bytes as they were read
+    /// (the recording first; a COMTRADE `.dat` after its `.cfg`). Filled
+    /// once the samples have been streamed.
+    pub files: Vec<(String, String)>,
 }
 
 impl RecordingInfo {
@@ -355,6 +359,7 @@ impl RecordingInfo {
             max_step_deviation: 0.0,
             header: Vec::new(),
             notes: Vec::new(),
+            files: Vec::new(),
         }
     }
 

@@ -3,13 +3,13 @@
 
 pub mod figures;
 pub mod html;
+pub mod pack;
 pub mod plot;
 pub mod summary_csv;
 pub mod table;
 
 use crate::rules::result::Results;
 use anyhow::Context;
-use std::path::Path;
 
 /// Formats a value of `unit` for people (pu to 3 decimals, seconds to ms).
 pub fn fmt_value(v: Option<f64>, unit: &str) -> String {
@@ -23,8 +23,8 @@ pub fn fmt_value(v: Option<f64>, unit: &str) -> String {
     }
 }
 
-/// Writes `results.json`.
-pub fn write_json(results: &Results, path: &Path) -> anyhow::Result<()> {
+/// `results.json`.
+pub fn json(results: &Results) -> anyhow::Result<Vec<u8>> {
     let text = serde_json::to_string_pretty(results).context("serialising results")?;
-    std::fs::write(path, text + "\n").with_context(|| format!("writing {}", path.display()))
+    Ok((text + "\n").into_bytes())
 }

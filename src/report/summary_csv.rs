@@ -1,8 +1,8 @@
 //! `summary.csv`: one row per (test, check).
 
 use crate::rules::result::Results;
+use crate::text;
 use anyhow::Context;
-use std::path::Path;
 
 /// Columns; later versions add columns at the end only.
 pub const HEADER: [&str; 15] = [
@@ -23,9 +23,10 @@ pub const HEADER: [&str; 15] = [
     "reason",
 ];
 
-pub fn write(results: &Results, path: &Path) -> anyhow::Result<()> {
-    let mut w =
-        csv::Writer::from_path(path).with_context(|| format!("creating {}", path.display()))?;
+/// `summary.csv`: text cells are neutralised for spreadsheets
+/// ([`text::csv_cell`]); numbers are written as they are.
+pub fn render(results: &Results) -> anyhow::Result<Vec<u8>> {
+    let mut w = csv::Writer::from_writer(Vec::new());
     w.write_record(HEADER)?;
     let num = |v: Option<f64>| {
         v.filter(|x| x.is_finite())
@@ -35,10 +36,10 @@ pub fn write(results: &Results, path: &Path) -> anyhow::Result<()> {
     for t in &results.tests {
         for c in &t.checks {
             w.write_record([
-                t.id.as_str(),
-                t.recording.path.as_str(),
+                &*text::csv_cell(&t.id),
+                &*text::csv_cell(&t.recording.path),
                 t.verdict.name(),
-                c.id.as_str(),
+                &*text::csv_cell(&c.id),
                 c.check_type.as_str(),
                 &c.disturbance.map(|d| d.to_string()).unwrap_or_default(),
                 c.verdict.name(),
@@ -48,12 +49,10 @@ pub fn write(results: &Results, path: &Path) -> anyhow::Result<()> {
                 c.unit.as_str(),
                 &num(c.at_s),
                 &num(c.settling_time_s),
-                c.detail.as_str(),
+                &*text::csv_cell(&c.detail),
                 c.reason.map(|r| r.name()).unwrap_or(""),
             ])?;
         }
     }
-    w.flush()
-        .with_context(|| format!("writing {}", path.display()))?;
-    Ok(())
+    w.into_inner().context("writing summary.csv")
 }

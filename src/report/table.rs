@@ -1,7 +1,10 @@
 //! The terminal table: one row per (test, check), colour only on a terminal.
+//! Every text from the inputs (ids, paths, names, sentences) is escaped:
+//! control characters never reach the terminal raw.
 
 use super::fmt_value;
 use crate::rules::result::{Results, Verdict};
+use crate::text;
 use comfy_table::{presets, Cell, Color, ContentArrangement, Table};
 
 fn colour(v: Verdict) -> Color {
@@ -36,8 +39,12 @@ pub fn render(results: &Results, tty: bool) -> String {
                 verdict
             };
             t.add_row(vec![
-                Cell::new(if k == 0 { test.id.as_str() } else { "" }),
-                Cell::new(&c.id),
+                Cell::new(if k == 0 {
+                    text::line(&test.id)
+                } else {
+                    "".into()
+                }),
+                Cell::new(text::line(&c.id)),
                 Cell::new(
                     c.disturbance
                         .map(|d| format!("#{d}"))
@@ -65,8 +72,8 @@ pub fn render(results: &Results, tty: bool) -> String {
     for test in results.tests.iter().filter(|t| t.verdict != Verdict::Pass) {
         out.push_str(&format!(
             "\n{} ({}): {}\n",
-            test.id,
-            test.recording.path,
+            text::line(&test.id),
+            text::line(&test.recording.path),
             test.verdict.name()
         ));
         for c in test
@@ -74,7 +81,12 @@ pub fn render(results: &Results, tty: bool) -> String {
             .iter()
             .filter(|c| matches!(c.verdict, Verdict::Fail | Verdict::Inconclusive))
         {
-            out.push_str(&format!("  {} {}: {}\n", c.id, c.verdict.name(), c.detail));
+            out.push_str(&format!(
+                "  {} {}: {}\n",
+                text::line(&c.id),
+                c.verdict.name(),
+                text::line(&c.detail)
+            ));
         }
     }
     let noted: Vec<_> = results
@@ -86,7 +98,7 @@ pub fn render(results: &Results, tty: bool) -> String {
         out.push_str("\nNotes:\n");
         for t in noted {
             for n in &t.notes {
-                out.push_str(&format!("  {}: {n}\n", t.id));
+                out.push_str(&format!("  {}: {}\n", text::line(&t.id), text::line(n)));
             }
         }
     }

@@ -45,10 +45,34 @@ pub fn load(path: &Path) -> Result<LoadedRules, InputErrors> {
 /// Loads and validates a rule set with chosen parameter values; all value
 /// problems are reported at once.
 pub fn load_with(path: &Path, choices: &params::Choices) -> Result<LoadedRules, InputErrors> {
-    let raw = yaml::read_text(path, "rule set")?;
-    let sha256 = crate::digest::sha256_file(path)
-        .map_err(|e| InputError::new(path, format!("cannot read rule set: {e}")))?;
+    let (raw, sha256) = yaml::read_text_hashed(path, "rule set")?;
     load_text(path, &raw, sha256, choices)
+}
+
+/// Loads a rule set once with parameter values from a plan and from the
+/// command line (`--set`, which wins); command-line values apply to the
+/// names this rule set declares. Returns the command-line names it used.
+pub fn load_choosing(
+    path: &Path,
+    plan: &std::collections::BTreeMap<String, f64>,
+    cli: &std::collections::BTreeMap<String, f64>,
+) -> Result<(LoadedRules, Vec<String>), InputErrors> {
+    let (raw, sha256) = yaml::read_text_hashed(path, "rule set")?;
+    let mut used = Vec::new();
+    let rules = load_text_with(path, &raw, sha256, |declared| {
+        let mut choices: params::Choices = plan
+            .iter()
+            .map(|(k, v)| (k.clone(), (*v, "plan".to_string())))
+            .collect();
+        for (k, v) in cli {
+            if declared.iter().any(|d| d == k) {
+                choices.insert(k.clone(), (*v, "--set".to_string()));
+                used.push(k.clone());
+            }
+        }
+        choices
+    })?;
+    Ok((rules, used))
 }
 
 /// Loads a rule set from its text (`path` names it in messages).
@@ -57,6 +81,17 @@ pub fn load_text(
     raw: &str,
     sha256: String,
     choices: &params::Choices,
+) -> Result<LoadedRules, InputErrors> {
+    load_text_with(path, raw, sha256, |_| choices.clone())
+}
+
+/// Loads a rule set from its text; `choose` gets the declared parameter
+/// names and returns the chosen values.
+fn load_text_with(
+    path: &Path,
+    raw: &str,
+    sha256: String,
+    choose: impl FnOnce(&[String]) -> params::Choices,
 ) -> Result<LoadedRules, InputErrors> {
     let raw = raw.strip_prefix('\u{feff}').unwrap_or(raw);
     // Parameters first: their values replace "$name" in the checks.
@@ -68,8 +103,10 @@ pub fn load_text(
         source: String,
     }
     let head: Head = yaml::parse(path, raw)?;
-    let resolved =
-        params::resolve(path, raw, &head.parameters, &head.source, choices).map_err(InputErrors)?;
+    let declared: Vec<String> = head.parameters.iter().map(|p| p.name.clone()).collect();
+    let choices = choose(&declared);
+    let resolved = params::resolve(path, raw, &head.parameters, &head.source, &choices)
+        .map_err(InputErrors)?;
     let text = params::substitute(path, raw, &resolved).map_err(InputErrors)?;
     let rules: RuleSet = match yaml::parse(path, &text) {
         Ok(r) => r,

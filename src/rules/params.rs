@@ -144,8 +144,14 @@ pub fn resolve(
     if !errs.is_empty() {
         return Err(errs);
     }
-    // Values: chosen, else default; defaults and range ends may refer to
-    // other parameters, so resolve in passes.
+    // Values: chosen, else default; a default may refer to one other
+    // parameter, so each chain of references is followed once (linear in
+    // the number of parameters, cycles detected on the way).
+    let index: std::collections::HashMap<&str, usize> = specs
+        .iter()
+        .enumerate()
+        .map(|(i, p)| (p.name.as_str(), i))
+        .collect();
     let mut values: BTreeMap<String, f64> = BTreeMap::new();
     for (n, (v, _)) in choices {
         values.insert(n.clone(), *v);
@@ -157,33 +163,51 @@ pub fn resolve(
                 let name = r
                     .strip_prefix('$')
                     .ok_or_else(|| format!("'{r}' is neither a number nor \"$parameter\""))?;
-                if !specs.iter().any(|p| p.name == name) {
+                if !index.contains_key(name) {
                     return Err(format!("'{r}' refers to an undeclared parameter"));
                 }
                 Ok(values.get(name).copied())
             }
         }
     };
-    for _ in 0..=specs.len() {
-        for p in specs {
-            if values.contains_key(&p.name) {
-                continue;
+    // 0: not yet seen, 1: on the chain being followed, 2: done.
+    let mut state = vec![0u8; specs.len()];
+    for start in 0..specs.len() {
+        let mut chain = Vec::new();
+        let mut i = start;
+        let value = loop {
+            if let Some(v) = values.get(&specs[i].name) {
+                break Some(*v);
             }
-            match lookup(&p.default, &values) {
-                Ok(Some(v)) => {
-                    values.insert(p.name.clone(), v);
-                }
-                Ok(None) => {}
-                Err(m) => errs.push(at(
-                    specs.iter().position(|x| x.name == p.name).unwrap_or(0),
-                    "default",
-                    m,
-                )),
+            if state[i] != 0 {
+                break None; // a cycle, or a chain that already failed
+            }
+            state[i] = 1;
+            chain.push(i);
+            match &specs[i].default {
+                NumOrRef::Num(x) => break Some(*x),
+                NumOrRef::Ref(r) => match r.strip_prefix('$').and_then(|n| index.get(n)) {
+                    Some(j) => i = *j,
+                    None => {
+                        errs.push(at(
+                            i,
+                            "default",
+                            lookup(&specs[i].default, &values).err().unwrap_or_default(),
+                        ));
+                        break None;
+                    }
+                },
+            }
+        };
+        for k in chain {
+            state[k] = 2;
+            if let Some(v) = value {
+                values.insert(specs[k].name.clone(), v);
             }
         }
-        if !errs.is_empty() {
-            return Err(errs);
-        }
+    }
+    if !errs.is_empty() {
+        return Err(errs);
     }
     let mut out = Vec::new();
     for (i, p) in specs.iter().enumerate() {

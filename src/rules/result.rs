@@ -361,6 +361,16 @@ pub struct RecordingResult {
     /// Mapped channels: `key ← source name (unit)`.
     #[serde(default)]
     pub channels: Vec<String>,
+    /// Every file read for this recording (a COMTRADE `.dat` after its
+    /// `.cfg`), with the SHA-256 of the bytes as the importer read them.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub files: Vec<HashedFile>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct HashedFile {
+    pub path: String,
+    pub sha256: String,
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]

@@ -12,21 +12,11 @@ use std::path::Path;
 /// Largest accepted rule-set or plan file.
 pub const MAX_BYTES: u64 = 256 * 1024;
 
-/// Reads `path` (at most [`MAX_BYTES`]) as UTF-8 text.
-pub fn read_text(path: &Path, what: &str) -> Result<String, InputError> {
-    let meta = std::fs::metadata(path).map_err(|e| {
-        InputError::new(path, format!("cannot open {what}: {e}"))
-            .hint("check the path (plan paths are relative to the plan file)")
-    })?;
-    if meta.len() > MAX_BYTES {
-        return Err(InputError::new(
-            path,
-            format!("{what} is {} bytes; the limit is {MAX_BYTES}", meta.len()),
-        )
-        .hint("rule sets and plans are small text files; is this the right file?"));
-    }
-    let bytes = std::fs::read(path)
-        .map_err(|e| InputError::new(path, format!("cannot read {what}: {e}")))?;
+/// Reads `path` (a regular file of at most [`MAX_BYTES`], counted while
+/// reading) as UTF-8 text, with the SHA-256 of the bytes read.
+pub fn read_text_hashed(path: &Path, what: &str) -> Result<(String, String), InputError> {
+    let bytes = crate::files::read_capped(path, what, MAX_BYTES)?;
+    let sha = crate::digest::sha256_bytes(&bytes);
     let text = String::from_utf8(bytes).map_err(|e| {
         InputError::new(
             path,
@@ -37,7 +27,15 @@ pub fn read_text(path: &Path, what: &str) -> Result<String, InputError> {
         )
         .hint("save the file as UTF-8")
     })?;
-    Ok(text.strip_prefix('\u{feff}').unwrap_or(&text).to_string())
+    Ok((
+        text.strip_prefix('\u{feff}').unwrap_or(&text).to_string(),
+        sha,
+    ))
+}
+
+/// Reads `path` (at most [`MAX_BYTES`]) as UTF-8 text.
+pub fn read_text(path: &Path, what: &str) -> Result<String, InputError> {
+    read_text_hashed(path, what).map(|(t, _)| t)
 }
 
 /// Parses YAML text into `T`; errors carry line, column and the field path.

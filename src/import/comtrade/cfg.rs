@@ -6,6 +6,9 @@
 //! trailing spaces, CRLF and missing optional trailing fields.
 
 use crate::error::InputError;
+
+/// Largest accepted number of analog (and of digital) channels.
+pub const MAX_CHANNELS: u64 = 10_000;
 use std::path::Path;
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -208,7 +211,7 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
             false,
         ),
     };
-    // 7.4.3 channel counts: TT,##A,##D.
+    // 7.4.3 channel counts: TT,##A,##D (each bounded before any sum).
     let (l2, s2) = ls.next("channel count")?;
     let f = fields(s2);
     if f.len() != 3 {
@@ -233,6 +236,16 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
     };
     let na = count(1, 'A')?;
     let nd = count(2, 'D')?;
+    if na > MAX_CHANNELS || nd > MAX_CHANNELS || total > MAX_CHANNELS {
+        return Err(InputError::new(
+            path,
+            format!(
+                "line 2 announces {total} channels ({na} analog, {nd} digital); at most {MAX_CHANNELS} of each are accepted"
+            ),
+        )
+        .line(l2)
+        .hint("check line 2 (TT,##A,##D) of the configuration"));
+    }
     if total != na + nd {
         return Err(InputError::new(
             path,
@@ -243,11 +256,6 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
         )
         .line(l2)
         .hint("TT must be the sum of ##A and ##D"));
-    }
-    if na + nd > 100_000 {
-        return Err(
-            InputError::new(path, format!("{} channels is not plausible", na + nd)).line(l2),
-        );
     }
     // 7.4.4 analog channel lines.
     let mut analogs = Vec::with_capacity(na as usize);

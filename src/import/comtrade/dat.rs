@@ -6,12 +6,16 @@
 //! (FLOAT32); a missing timestamp is 0xFFFFFFFF.
 
 use super::cfg::DataType;
-use super::{open_data, ComtradeSource};
+use super::{open_data, ComtradeSource, DataReader};
 use crate::error::InputError;
 use crate::model::{Block, FrameSink, RecordingInfo, N_KEYS};
-use std::io::{BufRead, BufReader, Read};
+use std::io::{BufRead, Read};
 
 const BLOCK: usize = 16_384;
+/// Bytes read from a binary data file at a time.
+const READ_BYTES: usize = 4 << 20;
+/// Longest accepted line of an ASCII data file.
+pub const MAX_LINE_BYTES: u64 = 1 << 20;
 
 /// Raw values of a block of records.
 #[derive(Default)]
@@ -27,12 +31,14 @@ struct Raw {
 
 enum Reader {
     Binary {
-        r: Box<dyn Read>,
+        r: DataReader,
+        /// Bytes of data left (a `.cff` section of known length).
+        left: Option<u64>,
         rec: usize,
         buf: Vec<u8>,
     },
     Ascii {
-        r: BufReader<Box<dyn Read>>,
+        r: DataReader,
         line: Vec<u8>,
         line_no: u64,
         in_cff: bool,
@@ -55,7 +61,7 @@ impl<'a> Decoder<'a> {
         let cfg = &src.cfg;
         let reader = match cfg.data_type {
             DataType::Ascii => Reader::Ascii {
-                r: BufReader::with_capacity(1 << 16, r),
+                r,
                 line: Vec::with_capacity(256),
                 line_no: src.data.first_line - 1,
                 in_cff: src.data.in_cff,
@@ -64,10 +70,15 @@ impl<'a> Decoder<'a> {
             dt => {
                 let rec =
                     8 + cfg.analogs.len() * dt.analog_bytes() + 2 * cfg.digitals.len().div_ceil(16);
+                // At most READ_BYTES per read, whatever the record size: the
+                // buffer grows with what the file holds, not with what the
+                // configuration announces.
+                let records = (READ_BYTES / rec).clamp(1, BLOCK);
                 Reader::Binary {
                     r,
+                    left: src.data.len,
                     rec,
-                    buf: vec![0; rec * BLOCK],
+                    buf: vec![0; rec * records],
                 }
             }
         };
@@ -99,6 +110,16 @@ impl<'a> Decoder<'a> {
         InputError::new(&self.src.data.path, msg)
     }
 
+    /// Reads the rest of the file and returns the SHA-256 of all its bytes.
+    fn finish(self) -> Result<String, InputError> {
+        let r = match self.reader {
+            Reader::Binary { r, .. } | Reader::Ascii { r, .. } => r,
+        };
+        r.finish()
+            .map(|(d, _)| d)
+            .map_err(|e| InputError::new(&self.src.data.path, format!("cannot read: {e}")))
+    }
+
     /// Reads up to `max` records into `raw` (cleared first); 0 at the end.
     fn next(&mut self, max: usize, raw: &mut Raw) -> Result<usize, InputError> {
         raw.sample.clear();
@@ -114,8 +135,10 @@ impl<'a> Decoder<'a> {
         let nd = cfg.digitals.len();
         let field_col = &self.field_col;
         match &mut self.reader {
-            Reader::Binary { r, rec, buf } => {
-                let want = (*rec * max).min(buf.len());
+            Reader::Binary { r, left, rec, buf } => {
+                let want = (*rec * max)
+                    .min(buf.len())
+                    .min(left.map_or(usize::MAX, |l| l.min(usize::MAX as u64) as usize));
                 let mut filled = 0;
                 while filled < want {
                     match r.read(&mut buf[filled..want]) {
@@ -129,6 +152,9 @@ impl<'a> Decoder<'a> {
                             ))
                         }
                     }
+                }
+                if let Some(l) = left {
+                    *l -= filled as u64;
                 }
                 let n = filled / *rec;
                 if filled % *rec != 0 {
@@ -204,12 +230,23 @@ impl<'a> Decoder<'a> {
                 let mut pending_blank: Option<u64> = None;
                 while n < max && !*done {
                     line.clear();
-                    let got = r
+                    let got = (&mut *r)
+                        .take(MAX_LINE_BYTES + 1)
                         .read_until(b'\n', line)
                         .map_err(|e| InputError::new(&path, format!("cannot read: {e}")))?;
                     if got == 0 {
                         *done = true;
                         break;
+                    }
+                    if got as u64 > MAX_LINE_BYTES {
+                        return Err(InputError::new(
+                            &path,
+                            format!("a line is longer than {MAX_LINE_BYTES} bytes"),
+                        )
+                        .line(*line_no + 1)
+                        .hint(
+                            "an ASCII data record is one line per sample; is this the data file?",
+                        ));
                     }
                     *line_no += 1;
                     let text = trim(line);
@@ -496,7 +533,15 @@ pub(super) fn stream(
     if index < 2 {
         return Err(d.err(format!("the recording has {index} sample(s)")));
     }
+    let data_sha = d.finish()?;
     let mut info = src.info.clone();
+    info.files = match &src.cfg_sha256 {
+        Some(c) => vec![
+            (info.path.clone(), c.clone()),
+            (src.data.path.display().to_string(), data_sha),
+        ],
+        None => vec![(info.path.clone(), data_sha)],
+    };
     info.samples = index;
     info.duration_s = prev_t;
     info.sample_rate_hz = match rate {

@@ -18,7 +18,7 @@ use crate::model::{
     VoltageUnit,
 };
 use cfg::Config;
-use std::io::{BufRead, BufReader, Read, Seek, SeekFrom};
+use std::io::{BufRead, BufReader, Read};
 use std::path::{Path, PathBuf};
 
 /// Where the sample records are.
@@ -32,6 +32,9 @@ struct DataPlace {
     first_line: u64,
     /// ASCII data inside a `.cff` ends at the next section header.
     in_cff: bool,
+    /// `.cff`: SHA-256 of the bytes before the data as the configuration
+    /// was read; the data stream checks that it reads the same bytes.
+    prefix_sha256: Option<String>,
 }
 
 /// A mapped channel: where its value is and how to scale it.
@@ -54,6 +57,8 @@ pub struct ComtradeSource {
     mapped: Vec<Mapped>,
     info: RecordingInfo,
     opts: ImportOptions,
+    /// SHA-256 of the `.cfg` bytes parsed (none for a `.cff`).
+    cfg_sha256: Option<String>,
 }
 
 /// Decodes configuration text: UTF-8, else ISO 8859-1 (each byte one character).
@@ -64,11 +69,11 @@ fn decode(bytes: &[u8]) -> (String, &'static str) {
     }
 }
 
+/// Largest accepted configuration (a .cfg, or the CFG section of a .cff).
+pub const MAX_CFG_BYTES: u64 = 16 << 20;
+
 fn read_all(path: &Path, what: &str) -> Result<Vec<u8>, InputError> {
-    std::fs::read(path).map_err(|e| {
-        InputError::new(path, format!("cannot open {what}: {e}"))
-            .hint("a .cfg needs its .dat beside it, with the same name")
-    })
+    crate::files::read_capped(path, what, MAX_CFG_BYTES)
 }
 
 /// The data file next to a configuration: same stem, `.dat` in the same case.
@@ -100,8 +105,7 @@ const CFF_MARK: &str = "--- file type:";
 fn split_cff(
     path: &Path,
 ) -> Result<(String, u64, &'static str, DataPlace, cfg::DataType), InputError> {
-    let file = std::fs::File::open(path)
-        .map_err(|e| InputError::new(path, format!("cannot open recording: {e}")))?;
+    let file = crate::files::open_regular(path, "recording")?;
     let mut r = BufReader::new(file);
     let mut offset = 0u64;
     let mut line_no = 0u64;
@@ -109,11 +113,30 @@ fn split_cff(
     let mut cfg_bytes = Vec::new();
     let mut cfg_first_line = 0;
     let mut line = Vec::new();
+    let mut prefix = <sha2::Sha256 as sha2::Digest>::new();
     loop {
         line.clear();
-        let n = r
+        let n = (&mut r)
+            .take(dat::MAX_LINE_BYTES + 1)
             .read_until(b'\n', &mut line)
             .map_err(|e| InputError::new(path, format!("cannot read: {e}")))?;
+        if n as u64 > dat::MAX_LINE_BYTES {
+            return Err(InputError::new(
+                path,
+                format!(
+                    "a line before the DAT section is longer than {} bytes",
+                    dat::MAX_LINE_BYTES
+                ),
+            )
+            .line(line_no + 1)
+            .hint("a .cff starts with text sections (CFG, INF, HDR); is this a COMTRADE file?"));
+        }
+        if cfg_bytes.len() as u64 > MAX_CFG_BYTES {
+            return Err(InputError::new(
+                path,
+                format!("the CFG section is larger than {MAX_CFG_BYTES} bytes"),
+            ));
+        }
         if n == 0 {
             return Err(
                 InputError::new(path, "no '--- file type: DAT ... ---' section")
@@ -122,6 +145,7 @@ fn split_cff(
         }
         line_no += 1;
         offset += n as u64;
+        sha2::Digest::update(&mut prefix, &line);
         let text = String::from_utf8_lossy(&line);
         let t = text.trim();
         // Compare bytes: the line may hold anything (binary data, broken UTF-8).
@@ -176,6 +200,7 @@ fn split_cff(
                         len,
                         first_line: line_no + 1,
                         in_cff: true,
+                        prefix_sha256: Some(crate::digest::hex(&sha2::Digest::finalize(prefix))),
                     },
                     dt,
                 ));
@@ -234,11 +259,13 @@ impl ComtradeSource {
             .and_then(|e| e.to_str())
             .unwrap_or("")
             .to_ascii_lowercase();
+        let mut cfg_sha256 = None;
         let (text, first_line, encoding, data, cff_type) = if ext == "cff" {
             let (t, l, e, d, dt) = split_cff(path)?;
             (t, l, e, d, Some(dt))
         } else {
             let bytes = read_all(path, "configuration")?;
+            cfg_sha256 = Some(crate::digest::sha256_bytes(&bytes));
             let (t, e) = decode(&bytes);
             let dp = dat_path(path);
             if !dp.exists() {
@@ -262,6 +289,7 @@ impl ComtradeSource {
                     len: None,
                     first_line: 1,
                     in_cff: false,
+                    prefix_sha256: None,
                 },
                 None,
             )
@@ -460,6 +488,7 @@ impl ComtradeSource {
             max_step_deviation: 0.0,
             header,
             notes,
+            files: Vec::new(),
         };
         let mut src = ComtradeSource {
             cfg,
@@ -467,6 +496,7 @@ impl ComtradeSource {
             mapped,
             info: info.clone(),
             opts: *opts,
+            cfg_sha256,
         };
         if src.cfg.rates.is_empty() {
             // Timestamp-based: estimate the nominal step from the first records.
@@ -737,17 +767,29 @@ impl Source for ComtradeSource {
     }
 }
 
-/// Opens the data bytes at their place.
-fn open_data(d: &DataPlace) -> Result<Box<dyn Read>, InputError> {
-    let mut f = std::fs::File::open(&d.path).map_err(|e| {
-        InputError::new(&d.path, format!("cannot open data file: {e}"))
-            .hint("a .cfg needs its .dat beside it, with the same name")
-    })?;
-    f.seek(SeekFrom::Start(d.offset))
-        .map_err(|e| InputError::new(&d.path, format!("cannot read: {e}")))?;
-    let r = BufReader::with_capacity(1 << 20, f);
-    Ok(match d.len {
-        Some(n) => Box::new(r.take(n)),
-        None => Box::new(r),
-    })
+/// The data file's reader, hashing every byte it reads.
+pub(super) type DataReader = crate::files::Hashing<BufReader<std::fs::File>>;
+
+/// Opens the data bytes at their place: a `.dat` from its start, or a `.cff`
+/// read from its start up to the data (checking that these are the bytes
+/// the configuration came from), so that the digest covers the whole file.
+fn open_data(d: &DataPlace) -> Result<DataReader, InputError> {
+    let f = crate::files::open_regular(&d.path, "data file")
+        .map_err(|e| e.hint("a .cfg needs its .dat beside it, with the same name"))?;
+    let mut r = crate::files::Hashing::new(BufReader::with_capacity(1 << 20, f));
+    if d.offset > 0 {
+        let skipped = std::io::copy(&mut (&mut r).take(d.offset), &mut std::io::sink())
+            .map_err(|e| InputError::new(&d.path, format!("cannot read: {e}")))?;
+        let same = d
+            .prefix_sha256
+            .as_ref()
+            .is_none_or(|p| *p == r.digest_so_far());
+        if skipped != d.offset || !same {
+            return Err(
+                InputError::new(&d.path, "the file changed while it was being read")
+                    .hint("check the recording when nothing is writing to it"),
+            );
+        }
+    }
+    Ok(r)
 }
