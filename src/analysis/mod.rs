@@ -209,8 +209,8 @@ pub struct AnalysisSettings {
 }
 
 /// Largest accepted samples per nominal cycle: the one-cycle window holds
-/// this many samples per channel (2 MHz at 50 Hz).
-pub const MAX_SAMPLES_PER_CYCLE: f64 = 40_000.0;
+/// this many samples per channel (5 MHz at 50 Hz; 5.6 MB for 7 channels).
+pub const MAX_SAMPLES_PER_CYCLE: f64 = 100_000.0;
 
 /// Nominal cycles at the start of a recording over which the phase rotation
 /// is checked (`|V2| > |V1|` means A-C-B).

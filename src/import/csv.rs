@@ -35,6 +35,9 @@ pub const MAX_LINE_BYTES: u64 = 16 << 20;
 pub const MAX_COLUMNS: usize = 100_000;
 /// Data rows used to estimate the nominal sample step at open.
 const STEP_ESTIMATE_ROWS: usize = 10_000;
+/// The step estimate reads at most this much before streaming starts (a
+/// wide file gives fewer rows; the estimate ends at the last complete line).
+const PROBE_BYTES: usize = 4 << 20;
 /// Regions smaller than this are parsed on one thread.
 const PARALLEL_MIN: usize = 256 << 10;
 /// Column slot marker: column not used.
@@ -506,7 +509,7 @@ impl CsvSource {
         let mut eof = fill(&mut file, &mut buf, 1 << 20, path)?;
         // The header and the rows used to estimate the step must be complete.
         while !eof && memchr::memchr_iter(b'\n', &buf).count() <= STEP_ESTIMATE_ROWS + 1 {
-            if buf.len() >= 64 << 20 {
+            if buf.len() >= PROBE_BYTES {
                 break;
             }
             eof = fill(&mut file, &mut buf, 1 << 20, path)?;

@@ -258,7 +258,7 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
         .hint("TT must be the sum of ##A and ##D"));
     }
     // 7.4.4 analog channel lines.
-    let mut analogs = Vec::with_capacity(na as usize);
+    let mut analogs = Vec::with_capacity((na as usize).min(1024));
     for k in 0..na {
         let (ln, s) = ls.next(&format!("analog channel {}", k + 1))?;
         let f = fields(s);
@@ -325,7 +325,7 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
         analogs.push(a);
     }
     // 7.4.5 digital (status) channel lines.
-    let mut digitals = Vec::with_capacity(nd as usize);
+    let mut digitals = Vec::with_capacity((nd as usize).min(1024));
     for k in 0..nd {
         let (ln, s) = ls.next(&format!("digital channel {}", k + 1))?;
         let f = fields(s);
