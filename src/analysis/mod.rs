@@ -455,7 +455,7 @@ impl Analyzer {
                             format!(
                                 "the phases rotate A-C-B: before any disturbance |V2| = {m2:.3} pu exceeds |V1| = {m1:.3} pu (|V2|/|V1| = {ratio:.3})"
                             ),
-                            "if the recording really rotates A-C-B, say phase_order: acb in the plan or test (or --phase-order acb); otherwise check which channels are mapped to b and c",
+                            "if the recording really rotates A-C-B, say phase_order: acb in the plan or test (or --phase-order acb); otherwise check which channels are mapped to b and c, and the nominal frequency (at the wrong one the sequences mean nothing)",
                         ),
                         PhaseOrder::Acb => (
                             format!(
