@@ -169,6 +169,13 @@ pub struct MapArgs {
     /// for voltages and currents before the analysis).
     #[arg(long, value_enum, value_name = "ORDER")]
     pub phase_order: Option<PhaseOrder>,
+    /// Text encoding of channel names (utf-8, windows-1251, cp866, gbk, latin1 …); detected
+    /// when not given.
+    #[arg(long, value_name = "LABEL")]
+    pub encoding: Option<String>,
+    /// Sampling rate, Hz, of a CSV recording that has no time column.
+    #[arg(long, value_name = "HZ")]
+    pub sample_rate: Option<f64>,
     /// Largest accepted deviation of a sample step from the nominal step, as a fraction.
     #[arg(long, value_name = "FRACTION", default_value_t = 0.10)]
     pub step_tolerance: f64,
@@ -218,6 +225,19 @@ impl MapArgs {
             })?);
         }
         m.phase_order = self.phase_order;
+        if let Some(e) = &self.encoding {
+            m.encoding = Some(crate::import::encoding_for(e).ok_or_else(|| {
+                UsageError(format!(
+                    "--encoding '{e}' is not known; use e.g. utf-8, windows-1251, cp866, gbk, latin1"
+                ))
+            })?);
+        }
+        if let Some(r) = self.sample_rate {
+            if !(r > 0.0 && r.is_finite()) {
+                return Err(UsageError(format!("--sample-rate {r} must be positive")));
+            }
+            m.sample_rate_hz = Some(r);
+        }
         Ok(m)
     }
 
@@ -230,6 +250,7 @@ impl MapArgs {
         Ok(ImportOptions {
             step_tolerance: self.step_tolerance,
             threads: 0,
+            partial: false,
         })
     }
 }

@@ -85,6 +85,13 @@ pub struct ChannelsSpec {
     pub ip: Option<String>,
     #[serde(default)]
     pub iq: Option<String>,
+    /// Text encoding of channel names (e.g. windows-1251, cp866, gbk,
+    /// latin1); detected when not given.
+    #[serde(default)]
+    pub encoding: Option<String>,
+    /// Sampling rate, Hz, for CSV recordings without a time column.
+    #[serde(default)]
+    pub sample_rate_hz: Option<f64>,
 }
 
 #[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
@@ -146,6 +153,8 @@ impl ChannelsSpec {
             q: o.q.clone().or(self.q.clone()),
             ip: o.ip.clone().or(self.ip.clone()),
             iq: o.iq.clone().or(self.iq.clone()),
+            encoding: o.encoding.clone().or(self.encoding.clone()),
+            sample_rate_hz: o.sample_rate_hz.or(self.sample_rate_hz),
         }
     }
 
@@ -212,6 +221,23 @@ impl ChannelsSpec {
             if let Some(c) = c {
                 m.keys.push((k, c.clone()));
             }
+        }
+        if let Some(e) = &self.encoding {
+            m.encoding = Some(crate::import::encoding_for(e).ok_or((
+                "encoding",
+                format!(
+                    "encoding '{e}' is not known; use e.g. utf-8, windows-1251, cp866, gbk, latin1"
+                ),
+            ))?);
+        }
+        if let Some(r) = self.sample_rate_hz {
+            if !(r > 0.0 && r.is_finite()) {
+                return Err((
+                    "sample_rate_hz",
+                    format!("sample_rate_hz {r} must be positive"),
+                ));
+            }
+            m.sample_rate_hz = Some(r);
         }
         Ok(m)
     }

@@ -267,10 +267,21 @@ fn hand_written_file_from_the_standard() {
     }
 }
 
+/// A one-off check of `p` (inspect tolerates a truncated file and shows
+/// what is there; a check refuses it).
 fn inspect(p: &Path) -> assert_cmd::assert::Assert {
+    let rules = p.with_file_name("rules.yaml");
+    std::fs::write(
+        &rules,
+        "id: t\ntitle: t\nsource: s\nchecks:\n  - { id: lvrt, type: envelope, bound: lower, points: [[0, 0], [1, 0.85]] }\n",
+    )
+    .unwrap();
     Command::cargo_bin("holdfast")
         .unwrap()
-        .arg("inspect")
+        .args(["check", "--rules"])
+        .arg(&rules)
+        .arg("--out")
+        .arg(p.with_file_name("pack"))
         .arg(p)
         .args([
             "--rated-kv",

@@ -223,6 +223,8 @@ pub struct Analyzer {
     dft: Option<SlidingDft>,
     has_current: bool,
     has_status: bool,
+    /// Voltages are mapped (else only currents and status are analysed).
+    has_voltage: bool,
     /// The residual voltage `vn = va + vb + vc` is mapped (phase-to-phase
     /// recordings): the zero sequence becomes observable.
     has_residual: bool,
@@ -304,7 +306,19 @@ impl Analyzer {
         let has_current =
             info.has(ChannelKey::Ia) || info.has(ChannelKey::P) || info.has(ChannelKey::Ip);
         let has_status = info.has(ChannelKey::Status);
-        let mut present = vec![Quantity::V1];
+        let has_voltage = [
+            ChannelKey::Va,
+            ChannelKey::Vb,
+            ChannelKey::Vc,
+            ChannelKey::VPos,
+        ]
+        .iter()
+        .any(|k| info.has(*k));
+        let mut present = if has_voltage {
+            vec![Quantity::V1]
+        } else {
+            Vec::new()
+        };
         let (dft, decimation) = match info.kind {
             RecordingKind::Waveform => {
                 let fs = info.sample_rate_hz;
@@ -332,6 +346,43 @@ impl Analyzer {
                         ),
                     )
                     .hint("check the time column's unit (seconds) and --frequency"));
+                }
+                if !has_voltage {
+                    // Currents only (inspect of a recording without mapped
+                    // voltages): magnitudes and what they show of a trip.
+                    if has_current {
+                        present.extend([Quantity::I1, Quantity::I2, Quantity::IMax]);
+                    }
+                    let dft = has_current.then(|| SlidingDft::new(fs, settings.frequency_hz, 3));
+                    let dec = ((fs
+                        / (settings.frequency_hz * settings.points_per_cycle.max(1) as f64))
+                        .floor() as usize)
+                        .max(1);
+                    if has_status {
+                        present.push(Quantity::Status);
+                    }
+                    return Ok(Analyzer {
+                        kind: info.kind,
+                        connection: info.connection,
+                        dft,
+                        has_current,
+                        has_status,
+                        has_voltage,
+                        has_residual: false,
+                        derived_voltage: None,
+                        phase_order: settings.phase_order,
+                        scale,
+                        decimation: dec,
+                        since_out: 0,
+                        status_min: f64::INFINITY,
+                        deviation_max: 0.0,
+                        u1: None,
+                        u2: None,
+                        series: Series::new(&present),
+                        xbuf: [0.0; 7],
+                        frequency_hz: settings.frequency_hz,
+                        problem: None,
+                    });
                 }
                 present.extend([
                     Quantity::V2,
@@ -397,6 +448,7 @@ impl Analyzer {
             dft,
             has_current,
             has_status,
+            has_voltage,
             has_residual: info.has(ChannelKey::Vn),
             derived_voltage,
             phase_order: settings.phase_order,
@@ -569,7 +621,20 @@ impl Analyzer {
 }
 
 impl FrameSink for Analyzer {
+    fn gap(&mut self) {
+        if let Some(d) = &mut self.dft {
+            d.reset();
+        }
+        self.since_out = 0;
+        self.deviation_max = 0.0;
+        self.status_min = f64::INFINITY;
+    }
+
     fn block(&mut self, block: &Block<'_>) {
+        if !self.has_voltage {
+            self.block_currents_only(block);
+            return;
+        }
         let ch = |k: ChannelKey| block.channels[k.index()];
         let status = ch(ChannelKey::Status);
         match self.kind {
@@ -692,6 +757,59 @@ impl FrameSink for Analyzer {
                         s.push(Quantity::Status, st[i]);
                     }
                 }
+            }
+        }
+    }
+}
+
+impl Analyzer {
+    /// A recording without voltages: current magnitudes and status.
+    fn block_currents_only(&mut self, block: &Block<'_>) {
+        let ch = |k: ChannelKey| block.channels[k.index()];
+        let status = ch(ChannelKey::Status);
+        let keys = [ChannelKey::Ia, ChannelKey::Ib, ChannelKey::Ic];
+        let cols: Vec<Option<&[f64]>> = keys.iter().map(|k| ch(*k)).collect();
+        let scales: Vec<f64> = keys.iter().map(|k| self.scale[k.index()]).collect();
+        for i in 0..block.len() {
+            if let Some(st) = status {
+                self.status_min = self.status_min.min(st[i]);
+            }
+            let Some(dft) = &mut self.dft else {
+                // Status only: one point per sample group.
+                if self.has_status {
+                    if self.since_out == 0 {
+                        self.series.t.push(block.time[i]);
+                        self.series.push(Quantity::Status, self.status_min);
+                        self.status_min = f64::INFINITY;
+                    }
+                    self.since_out = (self.since_out + 1) % self.decimation;
+                }
+                continue;
+            };
+            let mut x = [0.0; 3];
+            for c in 0..3 {
+                x[c] = cols[c].map_or(0.0, |v| v[i] * scales[c]);
+            }
+            if x.iter().any(|v| !v.is_finite()) && self.problem.is_none() {
+                let c = x.iter().position(|v| !v.is_finite()).unwrap_or(0);
+                self.problem = Some((format!("channel {}", keys[c].name()), block.time[i]));
+            }
+            dft.push(&x);
+            if dft.ready() {
+                if self.since_out == 0 {
+                    let (ia, ib, ic) = (dft.phasor(0), dft.phasor(1), dft.phasor(2));
+                    let [_, i1, i2] = sequence::sequences(ia, ib, ic);
+                    let s = &mut self.series;
+                    s.t.push(block.time[i]);
+                    s.push(Quantity::I1, i1.norm());
+                    s.push(Quantity::I2, i2.norm());
+                    s.push(Quantity::IMax, ia.norm().max(ib.norm()).max(ic.norm()));
+                    if self.has_status {
+                        s.push(Quantity::Status, self.status_min);
+                    }
+                    self.status_min = f64::INFINITY;
+                }
+                self.since_out = (self.since_out + 1) % self.decimation;
             }
         }
     }

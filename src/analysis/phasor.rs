@@ -42,6 +42,8 @@ pub struct SlidingDft {
     sums: Vec<Complex64>,
     pos: usize,
     n: u64,
+    /// Samples pushed since the last reset (the window is full at `k`).
+    fill: u64,
     since_refresh: usize,
     refresh_every: usize,
 }
@@ -80,9 +82,25 @@ impl SlidingDft {
             sums: vec![Complex64::new(0.0, 0.0); chans],
             pos: 0,
             n: 0,
+            fill: 0,
             since_refresh: 0,
             refresh_every: REFRESH_CYCLES * k,
         }
+    }
+
+    /// Forgets every sample: the window fills again from the next push.
+    pub fn reset(&mut self) {
+        self.ring.iter_mut().for_each(|x| *x = 0.0);
+        self.rot
+            .iter_mut()
+            .for_each(|x| *x = Complex64::new(0.0, 0.0));
+        self.sums
+            .iter_mut()
+            .for_each(|x| *x = Complex64::new(0.0, 0.0));
+        self.pos = 0;
+        self.since_refresh = 0;
+        // `n` keeps counting: the rotation of a sample depends on its index.
+        self.fill = 0;
     }
 
     /// Samples in the window.
@@ -99,7 +117,7 @@ impl SlidingDft {
 
     /// True once the window is full and phasors are valid.
     pub fn ready(&self) -> bool {
-        self.n >= self.k as u64
+        self.fill >= self.k as u64
     }
 
     #[inline]
@@ -133,6 +151,7 @@ impl SlidingDft {
             self.pos = 0;
         }
         self.n += 1;
+        self.fill += 1;
         self.since_refresh += 1;
         if self.since_refresh >= self.refresh_every {
             self.refresh();

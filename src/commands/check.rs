@@ -90,6 +90,8 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
                 || m.current_unit.is_some()
                 || m.voltage_connection.is_some()
                 || m.phase_order.is_some()
+                || m.encoding.is_some()
+                || m.sample_rate.is_some()
             {
                 return Err(UsageError(
                     "rating, --map and --phase-order flags belong to the one-off form (--rules); a plan has its own unit, channels and phase_order keys"

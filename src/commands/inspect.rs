@@ -4,7 +4,7 @@ use crate::analysis::events::{
     detect_disturbances, detect_trip, ApplicableVoltage, Balance, DetectionSettings, Disturbance,
     TripInfo, TripMethod,
 };
-use crate::analysis::{analyse, AnalysisSettings, POINTS_PER_CYCLE};
+use crate::analysis::{AnalysisSettings, Analyzer, POINTS_PER_CYCLE};
 use crate::cli::{InspectArgs, CAUTION};
 use crate::error::UsageError;
 use crate::import;
@@ -47,7 +47,10 @@ pub struct InspectReport {
 
 pub fn run(args: &InspectArgs) -> anyhow::Result<u8> {
     let map = args.map.channel_map()?;
-    let opts = args.map.import_options()?;
+    let mut opts = args.map.import_options()?;
+    // Inspect reads what can be read: channels that cannot all be mapped
+    // are left out with a note instead of stopping.
+    opts.partial = true;
     let ratings = args.ratings.ratings()?;
     let applicable = ApplicableVoltage::parse(&args.applicable).ok_or_else(|| {
         UsageError(format!(
@@ -62,13 +65,42 @@ pub fn run(args: &InspectArgs) -> anyhow::Result<u8> {
         );
     }
     let source = import::open(&args.recording, &map, &opts)?;
-    let frequency = args.ratings.frequency;
+    let mut notes = Vec::new();
+    let frequency = match (args.ratings.frequency, source.info().line_frequency_hz) {
+        (Some(f), Some(lf)) if (f - lf).abs() > 1e-6 => {
+            notes.push(format!(
+                "--frequency {f} Hz is used; the file states a line frequency of {lf} Hz"
+            ));
+            Some(f)
+        }
+        (Some(f), _) => Some(f),
+        (None, Some(lf)) => {
+            notes.push(format!(
+                "nominal frequency {lf} Hz taken from the file's line frequency (give --frequency to choose another)"
+            ));
+            Some(lf)
+        }
+        (None, None) => None,
+    };
     let needs_ratings = source
         .info()
         .channels
         .iter()
         .any(|c| c.canonical_unit == "V" || c.canonical_unit == "A");
-    let mut notes = Vec::new();
+    let no_analysis =
+        |source: Box<dyn import::Source>, notes: Vec<String>| -> anyhow::Result<InspectReport> {
+            let info = source.stream(&mut Discard)?;
+            Ok(InspectReport {
+                schema_version: 1,
+                recording: info,
+                analysis: None,
+                detection: None,
+                disturbances: Vec::new(),
+                trip: None,
+                notes,
+                caution: CAUTION,
+            })
+        };
     let report = if frequency.is_none() || (needs_ratings && ratings.is_none()) {
         if frequency.is_none() {
             notes.push(
@@ -82,17 +114,7 @@ pub fn run(args: &InspectArgs) -> anyhow::Result<u8> {
                     .to_string(),
             );
         }
-        let info = source.stream(&mut Discard)?;
-        InspectReport {
-            schema_version: 1,
-            recording: info,
-            analysis: None,
-            detection: None,
-            disturbances: Vec::new(),
-            trip: None,
-            notes,
-            caution: CAUTION,
-        }
+        no_analysis(source, notes)?
     } else {
         let f = frequency.unwrap_or(f64::NAN);
         let settings = AnalysisSettings {
@@ -104,33 +126,69 @@ pub fn run(args: &InspectArgs) -> anyhow::Result<u8> {
             points_per_cycle: POINTS_PER_CYCLE,
             phase_order: map.phase_order.unwrap_or_default(),
         };
-        let analysed = analyse(source, &settings)?;
-        let mut det = DetectionSettings::defaults(f);
-        det.applicable = applicable;
-        det.below_pu = args.below_pu;
-        det.above_pu = args.above_pu;
-        let disturbances = match detect_disturbances(&analysed.series, &det) {
-            Ok(d) => d,
-            Err(why) => {
-                notes.push(format!("no disturbance detection: {why}"));
-                Vec::new()
+        // What the analysis cannot do with this recording (a sampling rate
+        // too low for phasors, A-C-B rotation, values that are not finite)
+        // is a finding of inspect, not the end of it.
+        let analyzer = match Analyzer::new(source.info(), &settings) {
+            Ok(a) => Some(a),
+            Err(e) => {
+                notes.push(format!("no analysis: {}", e.message));
+                None
             }
         };
-        let trip = detect_trip(&analysed.series, &det);
-        InspectReport {
-            schema_version: 1,
-            analysis: Some(AnalysisFacts {
-                frequency_hz: f,
-                dft_window_samples: analysed.dft_window,
-                decimation: analysed.decimation,
-                points: analysed.series.len(),
-            }),
-            recording: analysed.info,
-            detection: Some(det),
-            disturbances,
-            trip: Some(trip),
-            notes,
-            caution: CAUTION,
+        match analyzer {
+            None => no_analysis(source, notes)?,
+            Some(mut analyzer) => {
+                let info = source.stream(&mut analyzer)?;
+                match analyzer.finish(info.clone()) {
+                    Err(e) => {
+                        notes.push(format!(
+                            "no analysis: {}{}",
+                            e.message,
+                            e.hint.map(|h| format!(" ({h})")).unwrap_or_default()
+                        ));
+                        InspectReport {
+                            schema_version: 1,
+                            recording: info,
+                            analysis: None,
+                            detection: None,
+                            disturbances: Vec::new(),
+                            trip: None,
+                            notes,
+                            caution: CAUTION,
+                        }
+                    }
+                    Ok(analysed) => {
+                        let mut det = DetectionSettings::defaults(f);
+                        det.applicable = applicable;
+                        det.below_pu = args.below_pu;
+                        det.above_pu = args.above_pu;
+                        let disturbances = match detect_disturbances(&analysed.series, &det) {
+                            Ok(d) => d,
+                            Err(why) => {
+                                notes.push(format!("no disturbance detection: {why}"));
+                                Vec::new()
+                            }
+                        };
+                        let trip = detect_trip(&analysed.series, &det);
+                        InspectReport {
+                            schema_version: 1,
+                            analysis: Some(AnalysisFacts {
+                                frequency_hz: f,
+                                dft_window_samples: analysed.dft_window,
+                                decimation: analysed.decimation,
+                                points: analysed.series.len(),
+                            }),
+                            recording: analysed.info,
+                            detection: Some(det),
+                            disturbances,
+                            trip: Some(trip),
+                            notes,
+                            caution: CAUTION,
+                        }
+                    }
+                }
+            }
         }
     };
     let stdout = std::io::stdout();
@@ -199,7 +257,32 @@ fn write_text(out: &mut dyn Write, r: &InspectReport) -> std::io::Result<()> {
             format!("{:.6e}", c.scale)
         )?;
     }
-    if !i.unmapped.is_empty() {
+    if !i.source_channels.is_empty() {
+        writeln!(out, "file channels ({})", i.source_channels.len())?;
+        writeln!(
+            out,
+            "  {:<8}{:>6}  {:<28}{:<7}{:<9}{:<3}{:>22}  mapped",
+            "kind", "no.", "name", "phase", "unit", "PS", "primary/secondary"
+        )?;
+        for c in &i.source_channels {
+            let ratio = match (c.primary, c.secondary) {
+                (Some(p), Some(s)) => format!("{p}/{s}"),
+                _ => String::new(),
+            };
+            writeln!(
+                out,
+                "  {:<8}{:>6}  {:<28}{:<7}{:<9}{:<3}{:>22}  {}",
+                c.kind,
+                c.number,
+                c.name,
+                c.phase,
+                c.unit,
+                c.ps,
+                ratio,
+                c.mapped_to.map(|k| k.name()).unwrap_or("")
+            )?;
+        }
+    } else if !i.unmapped.is_empty() {
         writeln!(out, "unmapped    {}", i.unmapped.join(", "))?;
     }
     if let (Some(a), Some(d)) = (&r.analysis, &r.detection) {
@@ -209,10 +292,16 @@ fn write_text(out: &mut dyn Write, r: &InspectReport) -> std::io::Result<()> {
                 "analysis    one-cycle DFT at {} Hz over {} samples, one point every {} samples ({} points)",
                 a.frequency_hz, a.dft_window_samples, a.decimation, a.points
             )?;
-        } else {
+        } else if i.kind == RecordingKind::RmsLevel {
             writeln!(
                 out,
                 "analysis    RMS-level values used as given ({} points)",
+                a.points
+            )?;
+        } else {
+            writeln!(
+                out,
+                "analysis    none: no voltage or current channel is mapped ({} points)",
                 a.points
             )?;
         }

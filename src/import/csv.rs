@@ -50,6 +50,8 @@ enum TimeKind {
     Seconds,
     /// ISO-8601 timestamps; values are seconds from this origin.
     Timestamp(DateTime<FixedOffset>),
+    /// No time column: the n-th row is at n / rate seconds.
+    Rate(f64),
 }
 
 /// What the parsers need to know about the layout; shared by all threads.
@@ -384,6 +386,10 @@ fn parse_line(line: &[u8], layout: &Layout, part: &mut Part) -> Result<(), RowPr
                         })
                     }
                 },
+                // No time column, so no TIME slot.
+                TimeKind::Rate(_) => memchr::memchr(layout.delim, &line[pos..])
+                    .map(|i| pos + i)
+                    .unwrap_or(line.len()),
                 TimeKind::Timestamp(origin) => {
                     let end = memchr::memchr(layout.delim, &line[pos..])
                         .map(|i| pos + i)
@@ -433,6 +439,10 @@ fn parse_line(line: &[u8], layout: &Layout, part: &mut Part) -> Result<(), RowPr
     }
     if col < layout.ncols {
         return Err(RowProblem::TooFewFields { have: col });
+    }
+    if let TimeKind::Rate(_) = layout.time {
+        // No time column: the sequential check gives the time.
+        part.time.push(f64::NAN);
     }
     Ok(())
 }
@@ -590,30 +600,43 @@ impl CsvSource {
                     .hint("rename the columns so that each name is unique")),
             }
         };
-        let time_col = match &map.time {
-            Some(name) => find(name)?,
-            None => header
+        // Header names without a unit suffix: "Ua(V)" → ("Ua", "V").
+        let bare: Vec<(String, Option<String>)> =
+            header.iter().map(|h| super::split_unit(h)).collect();
+        let time_col: Option<usize> = match &map.time {
+            Some(name) => Some(find(name)?),
+            None => bare
                 .iter()
-                .position(|h| h.eq_ignore_ascii_case("t") || h.eq_ignore_ascii_case("time"))
-                .ok_or_else(|| {
-                    InputError::new(path, "no time column")
-                        .line(1)
-                        .hint(format!(
-                        "name it 't' or 'time', or map it with --map time=COLUMN; columns are: {}",
-                        header.join(", ")
-                    ))
-                })?,
+                .position(|(h, _)| h.eq_ignore_ascii_case("t") || h.eq_ignore_ascii_case("time")),
         };
+        if time_col.is_none() && map.sample_rate_hz.is_none() {
+            return Err(InputError::new(path, "no time column")
+                .line(1)
+                .hint(format!(
+                    "name it 't' or 'time', map it with --map time=COLUMN, or give --sample-rate HZ (plan: channels.sample_rate_hz) for a file without one; columns are: {}",
+                    header.join(", ")
+                )));
+        }
         let mut mapped: Vec<(ChannelKey, usize)> = Vec::new();
         for key in ChannelKey::ALL {
             let col = match map.column_for(key) {
                 Some(name) => Some(find(name)?),
                 None => header
                     .iter()
-                    .position(|h| h.eq_ignore_ascii_case(key.name())),
+                    .position(|h| h.eq_ignore_ascii_case(key.name()))
+                    .or_else(|| {
+                        // Common names: Ua, V_b, IL3, Uab … (unit suffix apart).
+                        let hits: Vec<usize> = bare
+                            .iter()
+                            .enumerate()
+                            .filter(|(_, (h, _))| super::name_means(h) == Some(key))
+                            .map(|(i, _)| i)
+                            .collect();
+                        (hits.len() == 1).then(|| hits[0])
+                    }),
             };
             if let Some(c) = col {
-                if c == time_col {
+                if Some(c) == time_col {
                     return Err(InputError::new(
                         path,
                         format!("column is mapped both as time and as '{key}'"),
@@ -632,22 +655,46 @@ impl CsvSource {
                 mapped.push((key, c));
             }
         }
-        let keys: Vec<ChannelKey> = mapped.iter().map(|(k, _)| *k).collect();
+        let mut keys: Vec<ChannelKey> = mapped.iter().map(|(k, _)| *k).collect();
         let connection = map.connection.unwrap_or(Connection::PhaseToNeutral);
-        check_channel_set(path, &keys, connection)?;
+        let mut partial_notes = Vec::new();
+        if opts.partial {
+            let (drop, why) = super::partial_channel_set(&keys, connection);
+            mapped.retain(|(k, _)| !drop.contains(k));
+            keys.retain(|k| !drop.contains(k));
+            partial_notes = why;
+        }
+        check_channel_set(path, &keys, connection, opts.partial)?;
         let kind = if keys.contains(&ChannelKey::VPos) {
             RecordingKind::RmsLevel
         } else {
             RecordingKind::Waveform
         };
-        let vu = map.voltage_unit.unwrap_or(match kind {
-            RecordingKind::Waveform => VoltageUnit::V,
-            RecordingKind::RmsLevel => VoltageUnit::Pu,
-        });
-        let cu = map.current_unit.unwrap_or(CurrentUnit::A);
+        // Units: as given, else from the header's unit suffix ("Ua(kV)").
+        let suffix_of = |want: fn(ChannelKey) -> bool| -> Option<String> {
+            mapped
+                .iter()
+                .filter(|(k, _)| want(*k))
+                .find_map(|(_, c)| bare[*c].1.clone())
+        };
+        let vu = map
+            .voltage_unit
+            .or_else(|| suffix_of(ChannelKey::is_voltage).and_then(|u| VoltageUnit::parse(&u)))
+            .unwrap_or(match kind {
+                RecordingKind::Waveform => VoltageUnit::V,
+                RecordingKind::RmsLevel => VoltageUnit::Pu,
+            });
+        let cu = map
+            .current_unit
+            .or_else(|| {
+                suffix_of(ChannelKey::is_phase_current).and_then(|u| CurrentUnit::parse(&u))
+            })
+            .unwrap_or(CurrentUnit::A);
 
         let mut col_slot = vec![SKIP; ncols];
-        col_slot[time_col] = TIME;
+        if let Some(tc) = time_col {
+            col_slot[tc] = TIME;
+        }
         let mut scale = Vec::new();
         let mut channels = Vec::new();
         let mut slot_keys = Vec::new();
@@ -719,15 +766,20 @@ impl CsvSource {
         }
         let decimal_comma = delim != b',' && first.contains(&b',');
         let first_fields = split_fields(first, delim);
-        let first_time_text = first_fields
-            .get(time_col)
-            .map(|f| String::from_utf8_lossy(strip_quotes(f)).into_owned())
-            .unwrap_or_default();
+        let first_time_text = match time_col {
+            Some(tc) => first_fields
+                .get(tc)
+                .map(|f| String::from_utf8_lossy(strip_quotes(f)).into_owned())
+                .unwrap_or_default(),
+            None => "0".into(),
+        };
         let time_numeric = {
             let t = first_time_text.replace(',', ".");
             fast_float2::parse::<f64, _>(t.trim()).is_ok()
         };
-        let time = if time_numeric {
+        let time = if let (None, Some(r)) = (time_col, map.sample_rate_hz) {
+            TimeKind::Rate(r)
+        } else if time_numeric {
             TimeKind::Seconds
         } else {
             match parse_timestamp(&first_time_text) {
@@ -740,8 +792,8 @@ impl CsvSource {
                         ),
                     )
                     .line(2)
-                    .column(time_col as u64 + 1)
-                    .field(&header[time_col])
+                    .column(time_col.unwrap_or(0) as u64 + 1)
+                    .field(&header[time_col.unwrap_or(0)])
                     .hint("write time in seconds (e.g. 0.0001) or as 2026-03-01T12:00:00.000123"))
                 }
             }
@@ -756,7 +808,25 @@ impl CsvSource {
         };
         buf.drain(..data_start);
 
+        let source_channels = header
+            .iter()
+            .enumerate()
+            .map(|(i, h)| crate::model::SourceChannel {
+                kind: "column",
+                number: i as u64 + 1,
+                name: h.clone(),
+                phase: String::new(),
+                circuit: String::new(),
+                unit: String::new(),
+                ps: String::new(),
+                primary: None,
+                secondary: None,
+                mapped_to: mapped.iter().find(|(_, c)| *c == i).map(|(k, _)| *k),
+            })
+            .collect();
         let mut info = RecordingInfo {
+            source_channels,
+            line_frequency_hz: None,
             path: path.display().to_string(),
             format: "CSV".into(),
             kind,
@@ -784,17 +854,21 @@ impl CsvSource {
                 ),
                 (
                     "time column".into(),
-                    format!(
-                        "{} ({})",
-                        header[time_col],
-                        match layout.time {
-                            TimeKind::Seconds => "seconds",
-                            TimeKind::Timestamp(_) => "ISO-8601 timestamps",
-                        }
-                    ),
+                    match (time_col, &layout.time) {
+                        (None, TimeKind::Rate(r)) => format!("none: rows at {r} Hz (as given)"),
+                        (Some(tc), t) => format!(
+                            "{} ({})",
+                            header[tc],
+                            match t {
+                                TimeKind::Timestamp(_) => "ISO-8601 timestamps",
+                                _ => "seconds",
+                            }
+                        ),
+                        (None, _) => "none".into(),
+                    },
                 ),
             ],
-            notes: Vec::new(),
+            notes: partial_notes,
         };
         if kind == RecordingKind::Waveform && connection == Connection::PhaseToPhase {
             info.notes.push(
@@ -829,7 +903,9 @@ impl CsvSource {
             .filter(|d| *d > 0.0 && d.is_finite())
             .collect();
         steps.sort_by(f64::total_cmp);
-        let nominal_step = if n >= 2 && !steps.is_empty() {
+        let nominal_step = if let TimeKind::Rate(r) = layout.time {
+            1.0 / r
+        } else if n >= 2 && !steps.is_empty() {
             steps[steps.len() / 2]
         } else {
             f64::NAN
@@ -994,6 +1070,8 @@ fn read_regions(
 
 /// State of the sequential time check across parts.
 struct TimeCheck {
+    /// No time column: rows at this rate.
+    rate: Option<f64>,
     first: Option<f64>,
     prev: f64,
     nominal: f64,
@@ -1074,6 +1152,10 @@ impl Source for CsvSource {
         };
         let nslots = self.slot_keys.len();
         let mut tc = TimeCheck {
+            rate: match self.layout.time {
+                TimeKind::Rate(r) => Some(r),
+                _ => None,
+            },
             first: None,
             prev: f64::NAN,
             nominal: self.nominal_step,
@@ -1192,7 +1274,10 @@ fn check_time(
     line_base: u64,
 ) -> Result<(), (u64, String, String)> {
     for (i, t) in time.iter_mut().enumerate() {
-        let raw = *t;
+        let raw = match tc.rate {
+            Some(r) => tc.count as f64 / r,
+            None => *t,
+        };
         match tc.first {
             None => {
                 tc.first = Some(raw);

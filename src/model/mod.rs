@@ -293,6 +293,26 @@ pub struct ChannelInfo {
     pub canonical_unit: &'static str,
 }
 
+/// A channel of the source file, mapped or not (what `inspect` lists).
+#[derive(Clone, Debug, Serialize, schemars::JsonSchema)]
+pub struct SourceChannel {
+    /// `analog`, `digital` (COMTRADE) or `column` (CSV).
+    pub kind: &'static str,
+    /// Channel number (COMTRADE An/Dn) or column number (CSV), from 1.
+    pub number: u64,
+    pub name: String,
+    /// COMTRADE phase identification, circuit and unit, where given.
+    pub phase: String,
+    pub circuit: String,
+    pub unit: String,
+    /// COMTRADE: `P` or `S` values, with primary/secondary ratio terms.
+    pub ps: String,
+    pub primary: Option<f64>,
+    pub secondary: Option<f64>,
+    /// The key it is mapped to, if any.
+    pub mapped_to: Option<ChannelKey>,
+}
+
 /// Facts about an imported recording.
 #[derive(Clone, Debug, Serialize, schemars::JsonSchema)]
 pub struct RecordingInfo {
@@ -304,6 +324,10 @@ pub struct RecordingInfo {
     pub channels: Vec<ChannelInfo>,
     /// Columns of the file that no key was mapped to.
     pub unmapped: Vec<String>,
+    /// Every channel of the file.
+    pub source_channels: Vec<SourceChannel>,
+    /// The line frequency the file states (COMTRADE `lf`), Hz.
+    pub line_frequency_hz: Option<f64>,
     pub samples: u64,
     pub sample_rate_hz: f64,
     /// Time of the first sample as the file states it (seconds or timestamp text).
@@ -352,6 +376,8 @@ impl RecordingInfo {
                 })
                 .collect(),
             unmapped: Vec::new(),
+            source_channels: Vec::new(),
+            line_frequency_hz: None,
             samples: 0,
             sample_rate_hz,
             first_time: "0".into(),
@@ -389,6 +415,10 @@ impl Block<'_> {
 /// Consumer of sample blocks, in time order.
 pub trait FrameSink {
     fn block(&mut self, block: &Block<'_>);
+    /// The next block does not follow the previous one without a break
+    /// (samples between them were skipped, e.g. a segment recorded at
+    /// another sampling rate): windows over samples start afresh.
+    fn gap(&mut self) {}
 }
 
 /// A sink that keeps every sample: for small recordings, synthetic data and tests.

@@ -125,12 +125,22 @@ pub struct Config {
     pub timemult: f64,
     pub time_code: Option<(String, String)>,
     pub time_quality: Option<(String, String)>,
+    /// What was tolerated in a file that does not follow the standard
+    /// exactly (read the way general-purpose readers read it).
+    pub warnings: Vec<String>,
 }
 
-/// Splits a record into trimmed fields.
+/// Splits a record into trimmed fields (spaces, and the SUB padding some
+/// recorders append, are not part of a value).
 fn fields(line: &str) -> Vec<&str> {
-    line.split(',').map(|f| f.trim()).collect()
+    line.split(',')
+        .map(|f| f.trim_matches(|c: char| c.is_whitespace() || c == '\u{1a}'))
+        .collect()
 }
+
+/// Trailing characters that are not part of a line: CR, spaces, tabs and
+/// SUB (0x1A) padding.
+const LINE_END: [char; 4] = ['\r', ' ', '\t', '\u{1a}'];
 
 struct Lines<'a> {
     path: &'a Path,
@@ -147,7 +157,7 @@ impl<'a> Lines<'a> {
         match self.lines.get(self.pos) {
             Some(l) => {
                 self.pos += 1;
-                Ok((n, l.trim_end_matches(['\r', ' ', '\t'])))
+                Ok((n, l.trim_end_matches(LINE_END)))
             }
             None => Err(InputError::new(
                 self.path,
@@ -160,7 +170,7 @@ impl<'a> Lines<'a> {
     fn peek(&self) -> Option<&'a str> {
         self.lines
             .get(self.pos)
-            .map(|l| l.trim_end_matches(['\r', ' ', '\t']))
+            .map(|l| l.trim_end_matches(LINE_END))
     }
 }
 
@@ -197,19 +207,32 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
             InputError::new(path, "line 1 needs 'station_name,rec_dev_id[,rev_year]'").line(l1),
         );
     }
-    let (revision, implied) = match f.get(2) {
+    let mut warnings = Vec::new();
+    let (mut revision, mut implied) = match f.get(2) {
         None | Some(&"") => (Revision::R1991, true),
-        Some(y) => (
-            Revision::parse(y).ok_or_else(|| {
-                InputError::new(
+        Some(y) => match Revision::parse(y) {
+            Some(r) => (r, false),
+            // IEC 60255-24:2001 is the IEC edition of the 1999 layout.
+            None if *y == "2001" => {
+                warnings
+                    .push("revision 2001 (IEC 60255-24:2001) is read with the 1999 layout".into());
+                (Revision::R1999, false)
+            }
+            None if y.len() == 4 && y.parse::<u16>().is_ok_and(|v| (1990..2100).contains(&v)) => {
+                warnings.push(format!(
+                    "revision year {y} is not a COMTRADE revision; read with the 1999 layout"
+                ));
+                (Revision::R1999, false)
+            }
+            None => {
+                return Err(InputError::new(
                     path,
                     format!("revision year '{y}' is not 1991, 1999 or 2013"),
                 )
                 .line(l1)
-                .column(3)
-            })?,
-            false,
-        ),
+                .column(3))
+            }
+        },
     };
     // 7.4.3 channel counts: TT,##A,##D (each bounded before any sum).
     let (l2, s2) = ls.next("channel count")?;
@@ -262,6 +285,15 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
     for k in 0..na {
         let (ln, s) = ls.next(&format!("analog channel {}", k + 1))?;
         let f = fields(s);
+        if k == 0 && implied && f.len() == 13 {
+            // No revision year, but channel lines of the 1999 layout.
+            revision = Revision::R1999;
+            implied = false;
+            warnings.push(
+                "no revision year on line 1; the channel lines have the 1999 layout, so it is read as 1999"
+                    .into(),
+            );
+        }
         let want = if revision == Revision::R1991 { 10 } else { 13 };
         if f.len() < 10 || f.len() > 13 || (revision != Revision::R1991 && f.len() != 13) {
             return Err(InputError::new(
@@ -332,6 +364,17 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
         let (name, phase, circuit, normal) = match f.len() {
             5 => (f[1], f[2], f[3], f[4]),
             3 if revision == Revision::R1991 => (f[1], "", "", f[2]),
+            4 => {
+                if !warnings
+                    .iter()
+                    .any(|w| w.starts_with("digital channel lines"))
+                {
+                    warnings.push(format!(
+                        "digital channel lines have 4 fields (no normal state), from line {ln}; normal state 0 is assumed"
+                    ));
+                }
+                (f[1], f[2], f[3], "")
+            }
             n => {
                 return Err(InputError::new(
                     path,
@@ -475,6 +518,7 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
         timemult,
         time_code,
         time_quality,
+        warnings,
     })
 }
 

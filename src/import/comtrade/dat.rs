@@ -36,6 +36,8 @@ enum Reader {
         left: Option<u64>,
         rec: usize,
         buf: Vec<u8>,
+        /// The data ended in SUB (0x1A) padding, which was ignored.
+        sub_padding: bool,
     },
     Ascii {
         r: DataReader,
@@ -43,6 +45,8 @@ enum Reader {
         line_no: u64,
         in_cff: bool,
         done: bool,
+        /// Runs of blank lines skipped between records.
+        blank_lines: u64,
     },
 }
 
@@ -66,6 +70,7 @@ impl<'a> Decoder<'a> {
                 line_no: src.data.first_line - 1,
                 in_cff: src.data.in_cff,
                 done: false,
+                blank_lines: 0,
             },
             dt => {
                 let rec =
@@ -79,6 +84,7 @@ impl<'a> Decoder<'a> {
                     left: src.data.len,
                     rec,
                     buf: vec![0; rec * records],
+                    sub_padding: false,
                 }
             }
         };
@@ -110,6 +116,14 @@ impl<'a> Decoder<'a> {
         InputError::new(&self.src.data.path, msg)
     }
 
+    /// What was tolerated: runs of blank lines skipped, SUB padding ignored.
+    fn tolerated(&self) -> (u64, bool) {
+        match &self.reader {
+            Reader::Ascii { blank_lines, .. } => (*blank_lines, false),
+            Reader::Binary { sub_padding, .. } => (0, *sub_padding),
+        }
+    }
+
     /// Reads the rest of the file and returns the SHA-256 of all its bytes.
     fn finish(self) -> Result<String, InputError> {
         let r = match self.reader {
@@ -135,7 +149,13 @@ impl<'a> Decoder<'a> {
         let nd = cfg.digitals.len();
         let field_col = &self.field_col;
         match &mut self.reader {
-            Reader::Binary { r, left, rec, buf } => {
+            Reader::Binary {
+                r,
+                left,
+                rec,
+                buf,
+                sub_padding,
+            } => {
                 let want = (*rec * max)
                     .min(buf.len())
                     .min(left.map_or(usize::MAX, |l| l.min(usize::MAX as u64) as usize));
@@ -156,8 +176,16 @@ impl<'a> Decoder<'a> {
                 if let Some(l) = left {
                     *l -= filled as u64;
                 }
-                let n = filled / *rec;
-                if filled % *rec != 0 {
+                let mut n = filled / *rec;
+                let tail = &buf[n * *rec..filled];
+                if !tail.is_empty() && tail.iter().all(|b| *b == 0x1a) {
+                    // SUB padding after the last record: the end.
+                    *sub_padding = true;
+                    *left = Some(0);
+                } else if filled % *rec != 0 && self.src.opts.partial {
+                    // Inspect: the records before the cut are shown.
+                    *left = Some(0);
+                } else if filled % *rec != 0 {
                     return Err(InputError::new(
                         &self.src.data.path,
                         format!(
@@ -173,6 +201,13 @@ impl<'a> Decoder<'a> {
                 let dt = cfg.data_type;
                 for k in 0..n {
                     let b = &buf[k * *rec..(k + 1) * *rec];
+                    if b.iter().all(|x| *x == 0x1a) {
+                        // Whole records of SUB padding: the data ended.
+                        *sub_padding = true;
+                        *left = Some(0);
+                        n = k;
+                        break;
+                    }
                     let u32_at =
                         |o: usize| u32::from_le_bytes([b[o], b[o + 1], b[o + 2], b[o + 3]]);
                     raw.sample.push(u32_at(0) as u64);
@@ -223,6 +258,7 @@ impl<'a> Decoder<'a> {
                 line_no,
                 in_cff,
                 done,
+                blank_lines,
             } => {
                 let path = self.src.data.path.clone();
                 let mut n = 0;
@@ -258,8 +294,10 @@ impl<'a> Decoder<'a> {
                         *done = true;
                         break;
                     }
-                    if let Some(b) = pending_blank.take() {
-                        return Err(InputError::new(&path, "blank line inside the data").line(b));
+                    if pending_blank.take().is_some() {
+                        // Blank lines between records: skipped, as every
+                        // general-purpose reader does, and counted.
+                        *blank_lines += 1;
                     }
                     let mut field = 0usize;
                     let mut vals: [f64; 2] = [f64::NAN; 2];
@@ -368,15 +406,11 @@ mod smallvec_cols {
     }
 }
 
+/// Trims spaces, line ends and SUB (0x1A) padding.
 fn trim(b: &[u8]) -> &[u8] {
-    let s = b
-        .iter()
-        .position(|c| !c.is_ascii_whitespace())
-        .unwrap_or(b.len());
-    let e = b
-        .iter()
-        .rposition(|c| !c.is_ascii_whitespace())
-        .map_or(s, |i| i + 1);
+    let pad = |c: &u8| c.is_ascii_whitespace() || *c == 0x1a;
+    let s = b.iter().position(|c| !pad(c)).unwrap_or(b.len());
+    let e = b.iter().rposition(|c| !pad(c)).map_or(s, |i| i + 1);
     &b[s..e]
 }
 
@@ -413,7 +447,25 @@ pub(super) fn stream(
     let nm = src.mapped.len();
     let mut time: Vec<f64> = Vec::with_capacity(BLOCK);
     let mut cols: Vec<Vec<f64>> = vec![Vec::with_capacity(BLOCK); nm];
-    let rate = src.cfg.rates.first().map(|r| r.0);
+    let segs = &src.segments;
+    let seg = segs.first();
+    let mut seg_k = 0usize;
+    let mut in_use = true;
+    // Hands the collected samples to the sink as one block.
+    let flush = |time: &mut Vec<f64>, cols: &mut Vec<Vec<f64>>, sink: &mut dyn FrameSink| {
+        if time.is_empty() {
+            return;
+        }
+        let mut channels: [Option<&[f64]>; N_KEYS] = [None; N_KEYS];
+        for (c, m) in src.mapped.iter().enumerate() {
+            channels[m.key.index()] = Some(&cols[c]);
+        }
+        sink.block(&Block { time, channels });
+        time.clear();
+        for c in cols.iter_mut() {
+            c.clear();
+        }
+    };
     let unit = stamp_unit(&src);
     let nominal = 1.0 / src.info.sample_rate_hz;
     let mut first_stamp: Option<f64> = None;
@@ -422,14 +474,12 @@ pub(super) fn stream(
     let mut max_dev: f64 = 0.0;
     let mut index: u64 = 0;
     let announced = src.cfg.total_samples;
+    let mut extra_record = false;
+    let mut stopped: Option<String> = None;
     loop {
         let n = d.next(BLOCK, &mut raw)?;
         if n == 0 {
             break;
-        }
-        time.clear();
-        for c in &mut cols {
-            c.clear();
         }
         for k in 0..n {
             let sample_no = index + 1;
@@ -440,10 +490,15 @@ pub(super) fn stream(
                 }
             };
             if announced > 0 && sample_no > announced {
-                return Err(place(d.err(format!(
-                    "the data holds more than the {announced} samples the configuration announces (endsamp)"
-                )))
-                .hint("check the last endsamp of the configuration"));
+                // One record more than announced (a recorder that counts
+                // endsamp from 0): read it, say so.
+                if sample_no != announced + 1 {
+                    return Err(place(d.err(format!(
+                        "the data holds more than the {announced} samples the configuration announces (endsamp)"
+                    )))
+                    .hint("check the last endsamp of the configuration"));
+                }
+                extra_record = true;
             }
             if let Some(p) = prev_n {
                 if raw.sample[k] != p.wrapping_add(1) && raw.sample[k] != (p + 1) % (1u64 << 32) {
@@ -455,8 +510,25 @@ pub(super) fn stream(
                 }
             }
             prev_n = Some(raw.sample[k]);
-            let t = match rate {
-                Some(r) => index as f64 / r,
+            let t = match seg {
+                Some(_) => {
+                    // Move to the segment of this sample.
+                    while seg_k + 1 < segs.len() && sample_no > segs[seg_k].last {
+                        seg_k += 1;
+                    }
+                    let sg = &segs[seg_k];
+                    let used = sg.used && sample_no >= sg.first;
+                    if used != in_use {
+                        // Hand over what was collected, then say whether
+                        // the next samples follow without a break.
+                        flush(&mut time, &mut cols, sink);
+                        if used && index > 0 {
+                            sink.gap();
+                        }
+                        in_use = used;
+                    }
+                    sg.t0 + (sample_no.saturating_sub(sg.first)) as f64 / sg.rate
+                }
                 None => {
                     let s = raw.stamp[k];
                     if !s.is_finite() {
@@ -476,6 +548,13 @@ pub(super) fn stream(
                         }
                         let dev = (step - nominal).abs() / nominal;
                         max_dev = max_dev.max(dev);
+                        if dev > src.opts.step_tolerance && src.opts.partial {
+                            // Inspect: show the evenly sampled part.
+                            stopped = Some(format!(
+                                "uneven sampling from sample {sample_no} on (step {step:.6e} s against {nominal:.6e} s): the samples after it are not read"
+                            ));
+                            break;
+                        }
                         if dev > src.opts.step_tolerance {
                             return Err(place(d.err(format!(
                                 "uneven sampling at sample {sample_no}: step {step:.6e} s against the nominal {nominal:.6e} s"
@@ -487,6 +566,10 @@ pub(super) fn stream(
                 }
             };
             prev_t = t;
+            if !in_use {
+                index += 1;
+                continue;
+            }
             time.push(t);
             for (c, m) in src.mapped.iter().enumerate() {
                 let x = raw.cols[c][k];
@@ -514,27 +597,47 @@ pub(super) fn stream(
             }
             index += 1;
         }
-        let mut channels: [Option<&[f64]>; N_KEYS] = [None; N_KEYS];
-        for (c, m) in src.mapped.iter().enumerate() {
-            channels[m.key.index()] = Some(&cols[c]);
+        flush(&mut time, &mut cols, sink);
+        if stopped.is_some() {
+            break;
         }
-        sink.block(&Block {
-            time: &time,
-            channels,
-        });
     }
-    if announced > 0 && index < announced {
-        return Err(d
-            .err(format!(
-                "the data ends after {index} samples; the configuration announces {announced} (endsamp)"
-            ))
-            .hint("the data file is truncated or the configuration is wrong"));
+    let mut short = None;
+    if stopped.is_none() && announced > 0 && index < announced {
+        let msg = format!(
+            "the data ends after {index} samples; the configuration announces {announced} (endsamp): the data file is truncated"
+        );
+        if !src.opts.partial {
+            return Err(d
+                .err(msg)
+                .hint("the data file is truncated or the configuration is wrong"));
+        }
+        short = Some(msg);
     }
     if index < 2 {
-        return Err(d.err(format!("the recording has {index} sample(s)")));
+        return Err(d.err(match &short {
+            Some(why) => why.clone(),
+            None => format!("the recording has {index} sample(s)"),
+        }));
+    }
+    let mut tolerated: Vec<String> = short.into_iter().chain(stopped).collect();
+    if extra_record {
+        tolerated.push(format!(
+            "the data holds one record more than the {announced} the configuration announces (endsamp counted from 0); it is read"
+        ));
+    }
+    let (blanks, sub) = d.tolerated();
+    if blanks > 0 {
+        tolerated.push(format!(
+            "{blanks} run(s) of blank lines between data records were skipped"
+        ));
+    }
+    if sub {
+        tolerated.push("SUB (0x1A) padding at the end of the data file was ignored".into());
     }
     let data_sha = d.finish()?;
     let mut info = src.info.clone();
+    info.notes.extend(tolerated);
     info.files = match &src.cfg_sha256 {
         Some(c) => vec![
             (info.path.clone(), c.clone()),
@@ -544,8 +647,8 @@ pub(super) fn stream(
     };
     info.samples = index;
     info.duration_s = prev_t;
-    info.sample_rate_hz = match rate {
-        Some(r) => r,
+    info.sample_rate_hz = match seg {
+        Some(s) => s.analysis_rate,
         None => (index - 1) as f64 / prev_t,
     };
     info.max_step_deviation = max_dev;

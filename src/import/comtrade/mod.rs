@@ -15,7 +15,7 @@ use super::{check_channel_set, ChannelMap, ImportOptions, Source};
 use crate::error::InputError;
 use crate::model::{
     ChannelInfo, ChannelKey, Connection, CurrentUnit, FrameSink, RecordingInfo, RecordingKind,
-    VoltageUnit,
+    SourceChannel, VoltageUnit,
 };
 use cfg::Config;
 use std::io::{BufRead, BufReader, Read};
@@ -35,6 +35,8 @@ struct DataPlace {
     /// `.cff`: SHA-256 of the bytes before the data as the configuration
     /// was read; the data stream checks that it reads the same bytes.
     prefix_sha256: Option<String>,
+    /// What was tolerated while finding the data (non-standard markers).
+    notes: Vec<String>,
 }
 
 /// A mapped channel: where its value is and how to scale it.
@@ -59,14 +61,95 @@ pub struct ComtradeSource {
     opts: ImportOptions,
     /// SHA-256 of the `.cfg` bytes parsed (none for a `.cff`).
     cfg_sha256: Option<String>,
+    /// The sampling-rate segments and which of them are analysed.
+    segments: Vec<RateSegment>,
+}
+
+/// Samples `first..=last` (1-based) recorded at `rate`.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(crate) struct RateSegment {
+    pub rate: f64,
+    pub first: u64,
+    pub last: u64,
+    /// Seconds from the first sample to this segment's first sample.
+    pub t0: f64,
+    /// Analysed (at `analysis_rate`), or skipped.
+    pub used: bool,
+    /// The one rate the analysis uses for every analysed segment.
+    pub analysis_rate: f64,
+}
+
+/// Plans the analysis of a file with several sampling rates (IEEE
+/// C37.111 `nrates` > 1): rates within 1 % of their median (a
+/// frequency-tracking recorder) are analysed as one rate with each sample
+/// at its true time; otherwise the segments at the highest rate are
+/// analysed and the slower ones skipped (a one-cycle DFT needs one rate).
+/// Returns the segments and a note saying what was done.
+fn rate_segments(cfg: &Config) -> (Vec<RateSegment>, Option<String>) {
+    let mut segs = Vec::new();
+    let mut first = 1u64;
+    let mut t0 = 0.0;
+    for (rate, end) in &cfg.rates {
+        if *end >= first {
+            segs.push(RateSegment {
+                rate: *rate,
+                first,
+                last: *end,
+                t0,
+                used: true,
+                analysis_rate: *rate,
+            });
+            t0 += (*end - first + 1) as f64 / rate;
+            first = end + 1;
+        }
+    }
+    if segs.len() <= 1 {
+        return (segs, None);
+    }
+    let mut rates: Vec<f64> = segs.iter().map(|s| s.rate).collect();
+    rates.sort_by(f64::total_cmp);
+    let median = rates[rates.len() / 2];
+    let close = |r: f64, to: f64| (r - to).abs() <= 0.01 * to;
+    let range = |s: &RateSegment| format!("{}–{}", s.first, s.last);
+    if segs.iter().all(|s| close(s.rate, median)) {
+        let (lo, hi) = (rates[0], rates[rates.len() - 1]);
+        for s in &mut segs {
+            s.analysis_rate = median;
+        }
+        let note = if hi > lo {
+            Some(format!(
+                "{} sampling-rate segments from {lo} to {hi} Hz (a frequency-tracking recorder): analysed as one rate of {median} Hz, each sample at its true time",
+                segs.len()
+            ))
+        } else {
+            None
+        };
+        return (segs, note);
+    }
+    let top = rates[rates.len() - 1];
+    for s in &mut segs {
+        s.used = close(s.rate, top);
+        s.analysis_rate = top;
+    }
+    let used: Vec<String> = segs.iter().filter(|s| s.used).map(range).collect();
+    let skipped: Vec<String> = segs
+        .iter()
+        .filter(|s| !s.used)
+        .map(|s| format!("{} at {} Hz", range(s), s.rate))
+        .collect();
+    (
+        segs,
+        Some(format!(
+            "several sampling rates: samples {} at {top} Hz are analysed (each segment on its own one-cycle window); samples {} are skipped (a one-cycle DFT needs one rate)",
+            used.join(", "),
+            skipped.join(", ")
+        )),
+    )
 }
 
 /// Decodes configuration text: UTF-8, else ISO 8859-1 (each byte one character).
-fn decode(bytes: &[u8]) -> (String, &'static str) {
-    match std::str::from_utf8(bytes) {
-        Ok(s) => (s.strip_prefix('\u{feff}').unwrap_or(s).to_string(), "UTF-8"),
-        Err(_) => (bytes.iter().map(|b| *b as char).collect(), "ISO 8859-1"),
-    }
+fn decode(bytes: &[u8], forced: Option<&'static encoding_rs::Encoding>) -> (String, String) {
+    super::decode_text(bytes, forced)
 }
 
 /// Largest accepted configuration (a .cfg, or the CFG section of a .cff).
@@ -101,10 +184,35 @@ fn dat_path(cfg_path: &Path) -> PathBuf {
 
 const CFF_MARK: &str = "--- file type:";
 
+/// A `.cff` section marker: `--- file type: X ---` (IEEE C37.111-2013
+/// clause 9), and near misses that writers produce (`-- file type  X ---`,
+/// no colon, other spacing). Returns the text after "file type" and whether
+/// the marker had the standard form.
+fn section_marker(t: &str) -> Option<(String, bool)> {
+    let exact = t.len() >= CFF_MARK.len()
+        && t.as_bytes()[..CFF_MARK.len()].eq_ignore_ascii_case(CFF_MARK.as_bytes());
+    if !t.starts_with("--") {
+        return None;
+    }
+    let body = t.trim_start_matches('-').trim_start();
+    let lower = body.get(..9)?.to_ascii_lowercase();
+    if lower != "file type" {
+        return None;
+    }
+    let rest = body[9..]
+        .trim_start()
+        .trim_start_matches(':')
+        .trim()
+        .trim_end_matches('-')
+        .trim();
+    Some((rest.split_whitespace().collect::<Vec<_>>().join(" "), exact))
+}
+
 /// Splits a `.cff` into its configuration text and the place of its data.
 fn split_cff(
     path: &Path,
-) -> Result<(String, u64, &'static str, DataPlace, cfg::DataType), InputError> {
+    encoding: Option<&'static encoding_rs::Encoding>,
+) -> Result<(String, u64, String, DataPlace, Option<cfg::DataType>), InputError> {
     let file = crate::files::open_regular(path, "recording")?;
     let mut r = BufReader::new(file);
     let mut offset = 0u64;
@@ -114,6 +222,8 @@ fn split_cff(
     let mut cfg_first_line = 0;
     let mut line = Vec::new();
     let mut prefix = <sha2::Sha256 as sha2::Digest>::new();
+    let mut near_miss = false;
+    let mut marker_notes = Vec::new();
     loop {
         line.clear();
         let n = (&mut r)
@@ -148,14 +258,14 @@ fn split_cff(
         sha2::Digest::update(&mut prefix, &line);
         let text = String::from_utf8_lossy(&line);
         let t = text.trim();
-        // Compare bytes: the line may hold anything (binary data, broken UTF-8).
-        let mark = CFF_MARK.len();
-        if t.len() >= mark && t.as_bytes()[..mark].eq_ignore_ascii_case(CFF_MARK.as_bytes()) {
-            let rest = t[CFF_MARK.len()..]
-                .trim()
-                .trim_end_matches('-')
-                .trim()
-                .to_string();
+        if let Some((rest, exact)) = section_marker(t) {
+            if !exact && !near_miss {
+                near_miss = true;
+                marker_notes.push(format!(
+                    "section markers do not have the standard form '--- file type: X ---' (line {line_no}: '{}'); read anyway",
+                    crate::text::excerpt(t, 40)
+                ));
+            }
             let mut parts = rest.splitn(2, ' ');
             section = parts.next().unwrap_or("").to_ascii_uppercase();
             if section == "CFG" {
@@ -167,15 +277,20 @@ fn split_cff(
                     Some((ty, n)) => (ty.trim(), Some(n.trim())),
                     None => (spec, None),
                 };
-                let dt = cfg::DataType::parse(ty).ok_or_else(|| {
-                    InputError::new(
-                        path,
-                        format!(
-                            "DAT section type '{ty}' is not ASCII, BINARY, BINARY32 or FLOAT32"
-                        ),
-                    )
-                    .line(line_no)
-                })?;
+                // A marker without the type: the configuration says it.
+                let dt = if ty.is_empty() {
+                    None
+                } else {
+                    Some(cfg::DataType::parse(ty).ok_or_else(|| {
+                        InputError::new(
+                            path,
+                            format!(
+                                "DAT section type '{ty}' is not ASCII, BINARY, BINARY32 or FLOAT32"
+                            ),
+                        )
+                        .line(line_no)
+                    })?)
+                };
                 let len = match len {
                     Some(n) => Some(n.parse::<u64>().map_err(|_| {
                         InputError::new(path, format!("DAT section length '{n}' is not a number"))
@@ -189,7 +304,7 @@ fn split_cff(
                             .line(line_no),
                     );
                 }
-                let (text, enc) = decode(&cfg_bytes);
+                let (text, enc) = decode(&cfg_bytes, encoding);
                 return Ok((
                     text,
                     cfg_first_line,
@@ -201,6 +316,7 @@ fn split_cff(
                         first_line: line_no + 1,
                         in_cff: true,
                         prefix_sha256: Some(crate::digest::hex(&sha2::Digest::finalize(prefix))),
+                        notes: marker_notes,
                     },
                     dt,
                 ));
@@ -248,7 +364,14 @@ fn unit_kind(u: &str) -> UnitKind {
         "kA" | "ka" | "KA" => UnitKind::Current(1e3),
         "mA" => UnitKind::Current(1e-3),
         "pu" | "PU" | "p.u." => UnitKind::Pu,
-        _ => UnitKind::Other,
+        // Spelled out, as some exports write them.
+        other => match other.to_ascii_lowercase().as_str() {
+            "volt" | "volts" => UnitKind::Voltage(1.0),
+            "kilovolt" | "kilovolts" => UnitKind::Voltage(1e3),
+            "ampere" | "amperes" | "amp" | "amps" => UnitKind::Current(1.0),
+            "kiloampere" | "kiloamperes" => UnitKind::Current(1e3),
+            _ => UnitKind::Other,
+        },
     }
 }
 
@@ -261,12 +384,12 @@ impl ComtradeSource {
             .to_ascii_lowercase();
         let mut cfg_sha256 = None;
         let (text, first_line, encoding, data, cff_type) = if ext == "cff" {
-            let (t, l, e, d, dt) = split_cff(path)?;
-            (t, l, e, d, Some(dt))
+            let (t, l, e, d, dt) = split_cff(path, map.encoding)?;
+            (t, l, e, d, dt)
         } else {
             let bytes = read_all(path, "configuration")?;
             cfg_sha256 = Some(crate::digest::sha256_bytes(&bytes));
-            let (t, e) = decode(&bytes);
+            let (t, e) = decode(&bytes, map.encoding);
             let dp = dat_path(path);
             if !dp.exists() {
                 return Err(InputError::new(
@@ -290,6 +413,7 @@ impl ComtradeSource {
                     first_line: 1,
                     in_cff: false,
                     prefix_sha256: None,
+                    notes: Vec::new(),
                 },
                 None,
             )
@@ -322,22 +446,13 @@ impl ComtradeSource {
                 ),
             ));
         }
-        let distinct: Vec<f64> = cfg.rates.iter().map(|r| r.0).collect();
-        if distinct
-            .windows(2)
-            .any(|w| (w[0] - w[1]).abs() > 1e-9 * w[0])
-        {
-            return Err(InputError::new(
-                path,
-                format!(
-                    "the recording has {} sampling rates ({}); the one-cycle DFT needs one uniform rate",
-                    distinct.len(),
-                    cfg.rates.iter().map(|(r, e)| format!("{r} Hz to sample {e}")).collect::<Vec<_>>().join(", ")
-                ),
-            )
-            .hint("export the part recorded at one rate"));
-        }
-        let (mapped, connection, mut notes) = resolve(path, &cfg, map)?;
+        let (segments, rate_note) = rate_segments(&cfg);
+        // A truncated data file is the real problem, whatever the mapping.
+        let (mut mapped, connection, mut notes) = resolve(path, &cfg, map, opts.partial)
+            .map_err(|e| truncation(&cfg, &data).unwrap_or(e))?;
+        notes.extend(cfg.warnings.iter().cloned());
+        notes.extend(data.notes.iter().cloned());
+        notes.extend(rate_note);
         // Skew (µs) shifts a channel's samples in time; the analysis treats
         // channels as simultaneous, so say how large the angle error is.
         for m in &mapped {
@@ -352,8 +467,17 @@ impl ComtradeSource {
                 }
             }
         }
-        let keys: Vec<ChannelKey> = mapped.iter().map(|m| m.key).collect();
-        check_channel_set(path, &keys, connection)?;
+        let mut keys: Vec<ChannelKey> = mapped.iter().map(|m| m.key).collect();
+        if opts.partial {
+            let (drop, why) = super::partial_channel_set(&keys, connection);
+            mapped.retain(|m| !drop.contains(&m.key));
+            keys.retain(|k| !drop.contains(k));
+            notes.extend(why);
+        }
+        if let Err(e) = check_channel_set(path, &keys, connection, opts.partial) {
+            // A truncated data file is the real problem, whatever the mapping.
+            return Err(truncation(&cfg, &data).unwrap_or(e));
+        }
         let kind = if keys.contains(&ChannelKey::VPos) {
             RecordingKind::RmsLevel
         } else {
@@ -473,8 +597,52 @@ impl ComtradeSource {
                 }
             })
             .collect();
-        let sample_rate_hz = cfg.rates.first().map(|r| r.0).unwrap_or(f64::NAN);
+        let sample_rate_hz = segments
+            .iter()
+            .find(|s| s.used)
+            .map_or(f64::NAN, |s| s.analysis_rate);
+        let key_of = |analog: Option<usize>, digital: Option<usize>| {
+            mapped
+                .iter()
+                .find(|m| {
+                    (analog.is_some() && m.analog == analog)
+                        || (digital.is_some() && m.digital == digital)
+                })
+                .map(|m| m.key)
+        };
+        let source_channels = cfg
+            .analogs
+            .iter()
+            .enumerate()
+            .map(|(i, a)| SourceChannel {
+                kind: "analog",
+                number: a.index as u64,
+                name: a.name.clone(),
+                phase: a.phase.clone(),
+                circuit: a.circuit.clone(),
+                unit: a.unit.clone(),
+                ps: if a.is_primary { "P" } else { "S" }.into(),
+                primary: Some(a.primary),
+                secondary: Some(a.secondary),
+                mapped_to: key_of(Some(i), None),
+            })
+            .chain(cfg.digitals.iter().enumerate().map(|(i, d)| SourceChannel {
+                kind: "digital",
+                number: d.index as u64,
+                name: d.name.clone(),
+                phase: d.phase.clone(),
+                circuit: d.circuit.clone(),
+                unit: String::new(),
+                ps: String::new(),
+                primary: None,
+                secondary: None,
+                mapped_to: key_of(None, Some(i)),
+            }))
+            .collect();
         let mut info = RecordingInfo {
+            source_channels,
+            line_frequency_hz: Some(cfg.line_frequency)
+                .filter(|f| f.is_finite() && *f >= 10.0 && *f <= 1000.0),
             path: path.display().to_string(),
             format: "COMTRADE".into(),
             kind,
@@ -497,6 +665,7 @@ impl ComtradeSource {
             info: info.clone(),
             opts: *opts,
             cfg_sha256,
+            segments,
         };
         if src.cfg.rates.is_empty() {
             // Timestamp-based: estimate the nominal step from the first records.
@@ -508,14 +677,45 @@ impl ComtradeSource {
     }
 }
 
+/// One analog channel as a message names it: `'name' (#n, phase P, unit U)`.
+fn describe(a: &cfg::Analog) -> String {
+    format!(
+        "'{}' (#{}, phase '{}', unit '{}')",
+        a.name, a.index, a.phase, a.unit
+    )
+}
+
+/// Channels found for a set of keys: (phase, analog index, sign), the
+/// connection they imply, and how they were found.
+type Chosen = (Vec<(usize, usize, f64)>, Connection, &'static str);
+
+/// A pick of a key: analog or digital channel index, and a sign.
+type Pick = (ChannelKey, Option<usize>, Option<usize>, f64);
+
 /// Resolves the channel map against the configuration.
+///
+/// Explicit names (or `#n`, the channel number) come first. Then, for
+/// voltages and currents each: the phase field and a voltage/current unit
+/// (`A`/`B`/`C`, `L1`… or `AB`/`BC`/`CA`), else channel names (`Ua`, `IL2`,
+/// `Uab`, `U21` …); two phase-to-phase voltages suffice. A digital channel
+/// named `status` is the unit's status. With `opts.partial`, a set that is
+/// ambiguous is left out with a note instead of an error.
 fn resolve(
     path: &Path,
     cfg: &Config,
     map: &ChannelMap,
+    partial: bool,
 ) -> Result<(Vec<Mapped>, Connection, Vec<String>), InputError> {
     let mut notes = Vec::new();
+    let number = |name: &str| -> Option<u32> {
+        name.trim()
+            .strip_prefix('#')
+            .and_then(|n| n.trim().parse().ok())
+    };
     let find_analog = |name: &str| -> Option<usize> {
+        if let Some(n) = number(name) {
+            return cfg.analogs.iter().position(|a| a.index == n);
+        }
         cfg.analogs.iter().position(|a| a.name == name).or_else(|| {
             cfg.analogs
                 .iter()
@@ -523,6 +723,9 @@ fn resolve(
         })
     };
     let find_digital = |name: &str| -> Option<usize> {
+        if let Some(n) = number(name) {
+            return cfg.digitals.iter().position(|d| d.index == n);
+        }
         cfg.digitals
             .iter()
             .position(|d| d.name == name)
@@ -532,20 +735,31 @@ fn resolve(
                     .position(|d| d.name.eq_ignore_ascii_case(name.trim()))
             })
     };
-    let mut picks: Vec<(ChannelKey, Option<usize>, Option<usize>)> = Vec::new();
     let names = || {
-        cfg.analogs
-            .iter()
-            .map(|a| a.name.as_str())
-            .chain(cfg.digitals.iter().map(|d| d.name.as_str()))
-            .collect::<Vec<_>>()
-            .join(", ")
+        let mut v: Vec<String> = cfg.analogs.iter().take(24).map(describe).collect();
+        if cfg.analogs.len() > 24 {
+            v.push(format!("… {} more analog channels", cfg.analogs.len() - 24));
+        }
+        v.extend(
+            cfg.digitals
+                .iter()
+                .take(8)
+                .map(|d| format!("'{}' (digital #{})", d.name, d.index)),
+        );
+        if cfg.digitals.len() > 8 {
+            v.push(format!(
+                "… {} more digital channels",
+                cfg.digitals.len() - 8
+            ));
+        }
+        v.join(", ")
     };
+    let mut picks: Vec<Pick> = Vec::new();
     for (key, name) in &map.keys {
         if *key == ChannelKey::Status {
             match (find_digital(name), find_analog(name)) {
-                (Some(d), _) => picks.push((*key, None, Some(d))),
-                (None, Some(a)) => picks.push((*key, Some(a), None)),
+                (Some(d), _) => picks.push((*key, None, Some(d), 1.0)),
+                (None, Some(a)) => picks.push((*key, Some(a), None, 1.0)),
                 (None, None) => {
                     return Err(InputError::new(
                         path,
@@ -557,109 +771,170 @@ fn resolve(
             }
         } else {
             match find_analog(name) {
-                Some(a) => picks.push((*key, Some(a), None)),
+                Some(a) => picks.push((*key, Some(a), None, 1.0)),
                 None => {
                     return Err(InputError::new(
                         path,
                         format!("no analog channel named '{name}' for '{key}'"),
                     )
                     .field(name.clone())
-                    .hint(format!("channels are: {}", names())))
+                    .hint(format!(
+                        "give a channel name or its number as #n; channels are: {}",
+                        names()
+                    )))
                 }
             }
         }
     }
     let mut connection = map.connection.unwrap_or(Connection::PhaseToNeutral);
-    let has = |picks: &Vec<(ChannelKey, Option<usize>, Option<usize>)>, k: ChannelKey| {
-        picks.iter().any(|p| p.0 == k)
-    };
-    // Automatic mapping from the phase field and unit (or the channel name).
+    let has = |picks: &Vec<Pick>, k: ChannelKey| picks.iter().any(|p| p.0 == k);
     let rms = has(&picks, ChannelKey::VPos);
     if !rms {
-        let mut auto = |keys: [ChannelKey; 3],
-                        want_voltage: bool,
-                        picks: &mut Vec<(ChannelKey, Option<usize>, Option<usize>)>|
-         -> Result<(), InputError> {
-            if keys.iter().any(|k| has(picks, *k)) {
-                return Ok(());
+        for want_voltage in [true, false] {
+            let keys = if want_voltage {
+                [ChannelKey::Va, ChannelKey::Vb, ChannelKey::Vc]
+            } else {
+                [ChannelKey::Ia, ChannelKey::Ib, ChannelKey::Ic]
+            };
+            if keys.iter().any(|k| has(&picks, *k)) {
+                continue;
             }
-            let mut found: [Vec<usize>; 3] = Default::default();
-            let mut line_found: [Vec<usize>; 3] = Default::default();
+            let fits = |a: &cfg::Analog| match unit_kind(&a.unit) {
+                UnitKind::Voltage(_) => want_voltage,
+                UnitKind::Current(_) => !want_voltage,
+                _ => false,
+            };
+            // Candidates per phase (or phase pair): by the phase field, by name.
+            let mut by_field: [Vec<usize>; 3] = Default::default();
+            let mut line_field: [Vec<usize>; 3] = Default::default();
+            let mut by_name: [Vec<usize>; 3] = Default::default();
+            let mut line_name: [Vec<(usize, f64)>; 3] = Default::default();
+            let q = if want_voltage { 'v' } else { 'i' };
             for (i, a) in cfg.analogs.iter().enumerate() {
-                let is_v = matches!(unit_kind(&a.unit), UnitKind::Voltage(_));
-                let is_i = matches!(unit_kind(&a.unit), UnitKind::Current(_));
-                if (want_voltage && !is_v) || (!want_voltage && !is_i) {
+                if !fits(a) {
                     continue;
                 }
                 if let Some(p) = phase_of(&a.phase) {
-                    found[p].push(i);
-                } else if want_voltage {
-                    if let Some(p) = line_phase_of(&a.phase) {
-                        line_found[p].push(i);
+                    by_field[p].push(i);
+                } else if want_voltage && line_phase_of(&a.phase).is_some() {
+                    line_field[line_phase_of(&a.phase).unwrap_or(0)].push(i);
+                }
+                if let Some((qq, p)) = super::named_phase(&a.name) {
+                    if qq == q {
+                        by_name[p].push(i);
+                    }
+                }
+                if want_voltage {
+                    if let Some((p, sign)) = super::named_line(&a.name) {
+                        line_name[p].push((i, sign));
                     }
                 }
             }
-            let by_name = |k: ChannelKey| {
-                cfg.analogs
-                    .iter()
-                    .position(|a| a.name.trim().eq_ignore_ascii_case(k.name()))
+            let one_each = |set: &[Vec<usize>; 3]| set.iter().all(|v| v.len() == 1);
+            let ambiguous = |set: &[Vec<usize>; 3]| set.iter().any(|v| v.len() > 1);
+            let line_pick = |set: &[Vec<(usize, f64)>; 3]| -> Option<Vec<(usize, usize, f64)>> {
+                if set.iter().any(|v| v.len() > 1) {
+                    return None;
+                }
+                let got: Vec<(usize, usize, f64)> = (0..3)
+                    .filter_map(|p| set[p].first().map(|(i, s)| (p, *i, *s)))
+                    .collect();
+                (got.len() >= 2).then_some(got)
             };
-            let sets: [(&[Vec<usize>; 3], Connection); 2] = [
-                (&found, Connection::PhaseToNeutral),
-                (&line_found, Connection::PhaseToPhase),
-            ];
-            for (set, conn) in sets {
-                if set.iter().all(|v| v.len() == 1) {
-                    for p in 0..3 {
-                        picks.push((keys[p], Some(set[p][0]), None));
+            let as_signed = |set: &[Vec<usize>; 3]| -> [Vec<(usize, f64)>; 3] {
+                [0, 1, 2].map(|p| set[p].iter().map(|i| (*i, 1.0)).collect())
+            };
+            let mut chosen: Option<Chosen> = None;
+            if one_each(&by_field) {
+                chosen = Some((
+                    (0..3).map(|p| (p, by_field[p][0], 1.0)).collect(),
+                    Connection::PhaseToNeutral,
+                    "phase field",
+                ));
+            } else if want_voltage && by_field.iter().all(|v| v.is_empty()) {
+                if let Some(l) = line_pick(&as_signed(&line_field)) {
+                    chosen = Some((l, Connection::PhaseToPhase, "phase field"));
+                }
+            }
+            if chosen.is_none() && !ambiguous(&by_field) {
+                if one_each(&by_name) {
+                    chosen = Some((
+                        (0..3).map(|p| (p, by_name[p][0], 1.0)).collect(),
+                        Connection::PhaseToNeutral,
+                        "channel names",
+                    ));
+                } else if want_voltage && by_name.iter().all(|v| v.is_empty()) {
+                    if let Some(l) = line_pick(&line_name) {
+                        chosen = Some((l, Connection::PhaseToPhase, "channel names"));
+                    }
+                }
+            }
+            match chosen {
+                Some((list, conn, how)) => {
+                    for (p, i, sign) in &list {
+                        picks.push((keys[*p], Some(*i), None, *sign));
                     }
                     if want_voltage {
                         connection = map.connection.unwrap_or(conn);
                     }
-                    return Ok(());
-                }
-                if set.iter().any(|v| v.len() > 1) {
-                    let list: Vec<String> = set
+                    let desc: Vec<String> = list
                         .iter()
-                        .flatten()
-                        .map(|i| {
-                            format!("'{}' (line {})", cfg.analogs[*i].name, cfg.analogs[*i].line)
+                        .map(|(p, i, sign)| {
+                            format!(
+                                "{} ← {}'{}'",
+                                keys[*p].name(),
+                                if *sign < 0.0 { "minus " } else { "" },
+                                cfg.analogs[*i].name
+                            )
                         })
                         .collect();
-                    return Err(InputError::new(
-                        path,
-                        format!(
+                    notes.push(format!(
+                        "channels found by their {how}: {}",
+                        desc.join(", ")
+                    ));
+                }
+                None => {
+                    let set = if ambiguous(&by_field) {
+                        &by_field
+                    } else {
+                        &by_name
+                    };
+                    if ambiguous(set) {
+                        let list: Vec<String> = set
+                            .iter()
+                            .flatten()
+                            .map(|i| describe(&cfg.analogs[*i]))
+                            .collect();
+                        let msg = format!(
                             "several {} channels per phase: {}",
                             if want_voltage { "voltage" } else { "current" },
                             list.join(", ")
-                        ),
-                    )
-                    .hint(format!(
-                        "choose with the plan's channels block or --map {}=NAME ...",
-                        keys[0].name()
-                    )));
+                        );
+                        let hint = format!(
+                            "choose with the plan's channels block or --map {}=NAME (or #n) ...",
+                            keys[0].name()
+                        );
+                        if partial {
+                            notes.push(format!("{msg}: not mapped ({hint})"));
+                        } else {
+                            return Err(InputError::new(path, msg).hint(hint));
+                        }
+                    }
                 }
             }
-            if keys.iter().all(|k| by_name(*k).is_some()) {
-                for k in keys {
-                    picks.push((k, by_name(k), None));
-                }
-            }
-            Ok(())
-        };
-        auto(
-            [ChannelKey::Va, ChannelKey::Vb, ChannelKey::Vc],
-            true,
-            &mut picks,
-        )?;
-        auto(
-            [ChannelKey::Ia, ChannelKey::Ib, ChannelKey::Ic],
-            false,
-            &mut picks,
-        )?;
+        }
+    }
+    if !has(&picks, ChannelKey::Status) {
+        if let Some(d) = cfg
+            .digitals
+            .iter()
+            .position(|d| d.name.trim().eq_ignore_ascii_case("status"))
+        {
+            picks.push((ChannelKey::Status, None, Some(d), 1.0));
+        }
     }
     let mut mapped = Vec::new();
-    for (key, analog, digital) in picks {
+    for (key, analog, digital, sign) in picks {
         if let Some(d) = digital {
             mapped.push(Mapped {
                 key,
@@ -721,7 +996,7 @@ fn resolve(
                 ));
             }
         };
-        let k = ps * factor;
+        let k = ps * factor * sign;
         if !(k.is_finite() && (a.a * k).is_finite() && (a.b * k).is_finite()) || k == 0.0 {
             return Err(InputError::new(
                 path,
@@ -765,6 +1040,79 @@ impl Source for ComtradeSource {
     fn stream(self: Box<Self>, sink: &mut dyn FrameSink) -> Result<RecordingInfo, InputError> {
         dat::stream(*self, sink)
     }
+}
+
+/// A data file that holds fewer records than the configuration announces,
+/// found without decoding it (for a clear message before any other).
+fn truncation(cfg: &Config, d: &DataPlace) -> Option<InputError> {
+    let announced = cfg.total_samples;
+    if announced == 0 {
+        return None;
+    }
+    let file_len = std::fs::metadata(&d.path).ok()?.len();
+    let avail = d.len.unwrap_or(file_len.saturating_sub(d.offset));
+    let have = match cfg.data_type {
+        cfg::DataType::Ascii => {
+            // Records are lines; count them within a bounded read.
+            let f = crate::files::open_regular(&d.path, "data file").ok()?;
+            let mut r = BufReader::new(f);
+            std::io::copy(&mut (&mut r).take(d.offset), &mut std::io::sink()).ok()?;
+            let mut n = 0u64;
+            let mut line = Vec::new();
+            let mut last_line = d.first_line;
+            loop {
+                line.clear();
+                match (&mut r)
+                    .take(dat::MAX_LINE_BYTES)
+                    .read_until(b'\n', &mut line)
+                {
+                    Ok(0) | Err(_) => break,
+                    Ok(_) => {}
+                }
+                let t = String::from_utf8_lossy(&line);
+                let t = t.trim_matches(|c: char| c.is_whitespace() || c == '\u{1a}');
+                if d.in_cff && t.starts_with("--") {
+                    break;
+                }
+                last_line += 1;
+                if !t.is_empty() {
+                    n += 1;
+                }
+                if n > announced {
+                    return None;
+                }
+            }
+            if n < announced {
+                return Some(
+                    InputError::new(
+                        &d.path,
+                        format!(
+                            "the data is truncated: {n} of the {announced} records the configuration announces (endsamp), ending at line {}",
+                            last_line.saturating_sub(1)
+                        ),
+                    )
+                    .line(last_line.saturating_sub(1))
+                    .hint("the data file was cut short; the recording cannot be used as it is"),
+                );
+            }
+            return None;
+        }
+        dt => {
+            let rec = 8
+                + cfg.analogs.len() as u64 * dt.analog_bytes() as u64
+                + 2 * (cfg.digitals.len() as u64).div_ceil(16);
+            avail / rec.max(1)
+        }
+    };
+    (have < announced).then(|| {
+        InputError::new(
+            &d.path,
+            format!(
+                "the data is truncated: {have} of the {announced} records the configuration announces (endsamp)"
+            ),
+        )
+        .hint("the data file was cut short; the recording cannot be used as it is")
+    })
 }
 
 /// The data file's reader, hashing every byte it reads.
