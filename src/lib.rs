@@ -12,7 +12,9 @@
 //! 4. `rules` – rule sets and the checks that turn analysed recordings into
 //!    verdicts;
 //! 5. `report` – renderers of those verdicts (terminal table, JSON, CSV, HTML);
-//! 6. [`commands`] – one module per subcommand, wired up by [`cli`].
+//! 6. [`pipeline`] – one test from recording to evidence, a whole job in
+//!    parallel;
+//! 7. [`commands`] – one module per subcommand, wired up by [`cli`].
 //!
 //! Results support engineering judgement; they are not a certification. The
 //! applicable grid code, the network operator and licensed professional
@@ -26,6 +28,7 @@ pub mod error;
 pub mod files;
 pub mod import;
 pub mod model;
+pub mod pipeline;
 pub mod plan;
 pub mod report;
 pub mod rules;

@@ -300,7 +300,7 @@ fn table_inside_passes_with_time_margin() {
     let c = one(&s, &rules(TABLE));
     assert_eq!(c.verdict, Verdict::Pass, "{}", c.detail);
     assert!(close(c.margin, 0.051, 1e-9), "{:?}", c.margin);
-    assert_eq!(c.unit, "s");
+    assert_eq!(c.unit.name(), "s");
 }
 
 #[test]
@@ -790,7 +790,7 @@ fn zone_margins_agree_with_the_verdict() {
     s.status = status_open_at(1.8);
     let c = one(&s, &rules(LVRT));
     assert_eq!(
-        (c.reason, c.unit.as_str()),
+        (c.reason, c.unit.name()),
         (Some(Reason::PermittedTrip), "s")
     );
     assert!(close(c.margin, 1.8 - 1.627, 1e-9), "{:?}", c.margin);

@@ -3,7 +3,6 @@
 use assert_cmd::Command;
 use holdfast::analysis::events::DetectionSettings;
 use holdfast::analysis::{Quantity, Series};
-use holdfast::report::figures::{figures, FigureInput};
 use holdfast::report::plot::{self, BOUNDARY};
 use holdfast::rules::engine::{self, detection_settings};
 use holdfast::rules::spec::{CheckSpec, RuleSet};
@@ -201,17 +200,7 @@ fn envelope_boundary_passes_through_the_rule_points() {
     let rules: RuleSet = holdfast::rules::yaml::parse(Path::new("r.yaml"), text).unwrap();
     let det: DetectionSettings = detection_settings(&rules, 50.0);
     let out = engine::evaluate(&series, &rules, &det, None);
-    let applicable = out.applicable.clone().unwrap();
-    let figs = figures(&FigureInput {
-        test_id: "E1",
-        series: &series,
-        applicable: &applicable,
-        rules: &rules,
-        disturbances: &out.disturbances,
-        trip: &out.trip,
-        checks: &out.checks,
-        frequency_hz: 50.0,
-    });
+    let figs = holdfast::pipeline::figures_of("E1", &series, &rules, &det, &out);
     let (svg, map) = plot::svg(&figs[0].spec).unwrap();
     let color = format!("#{:02X}{:02X}{:02X}", BOUNDARY.0, BOUNDARY.1, BOUNDARY.2);
     // The boundary, not its two-point legend sample.

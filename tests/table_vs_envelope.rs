@@ -10,7 +10,7 @@
 //! first time outside the zone, and the verdict given a trip time. The
 //! staircase is the one the figures draw (`zone::table_boundary`).
 
-use holdfast::rules::result::{CheckResult, Verdict};
+use holdfast::rules::result::{CheckKind, CheckResult, Unit, Verdict};
 use holdfast::rules::spec::{Bound, Cessation, Side, TableMode, TableRow};
 use holdfast::rules::zone::{
     scan_envelope, scan_table, table_boundary, zone_verdict, ConnectionFacts, Timing,
@@ -24,7 +24,7 @@ fn verdict(scan: &holdfast::rules::zone::ZoneScan, trip: Option<f64>) -> Verdict
         trip_visible: true,
         cessations: vec![],
     };
-    let r = CheckResult::new("x", "x", Some(0), "pu");
+    let r = CheckResult::new("x", CheckKind::Envelope, Some(0), Unit::Pu);
     let timing = Timing {
         t0: 1.0,
         end_s: Some(2.0),

@@ -1,7 +1,6 @@
 //! `holdfast rules ...`: work with rule sets.
 
 use crate::cli::{RulesArgs, RulesCommand};
-use crate::rules::spec::CheckSpec;
 use std::io::Write;
 
 pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
@@ -27,19 +26,7 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
                 writeln!(out, "  param   {}", param_line(p, true))?;
             }
             for c in &r.checks {
-                let what = match c {
-                    CheckSpec::Envelope(e) => format!("{:?} envelope, {} points", e.bound, e.points.len()).to_lowercase(),
-                    CheckSpec::DurationTable(t) => format!("{:?} duration table, {} rows, {:?}", t.side, t.rows.len(), t.mode).to_lowercase(),
-                    CheckSpec::ReactiveCurrent(q) => format!(
-                        "{:?}-sequence reactive current, k = {}, dead band {} pu ({:?}), rise {} s, settling {} s",
-                        q.sequence, q.gain, q.dead_band_pu, q.dead_band_mode, q.rise_time_s, q.settling_time_s
-                    )
-                    .to_lowercase(),
-                    CheckSpec::ActivePowerRecovery(a) => format!(
-                        "active power to {} of pre-fault within {} s (from {} pu loading)",
-                        a.fraction, a.within_s, a.min_prefault_pu
-                    ),
-                };
+                let what = c.check().summary();
                 writeln!(out, "  check   {:<14} {what}", c.id())?;
             }
             std::io::stdout()
@@ -85,7 +72,14 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
             // moved into place, never over the rule set or through a link.
             let pack = crate::report::pack::PackWriter::begin(out, std::slice::from_ref(file))?;
             let mut written = Vec::new();
-            for (id, spec) in crate::report::figures::rule_figures(&loaded.rules) {
+            let r = &loaded.rules;
+            let drawings: Vec<(String, crate::rules::checks::RuleDrawing)> = r
+                .checks
+                .iter()
+                .filter_map(|c| Some((c.id().to_string(), c.check().drawing(&r.id)?)))
+                .collect();
+            let name = r.applicable_voltage.name().replace('_', " ");
+            for (id, spec) in crate::report::figures::rule_figures(&r.id, &name, &drawings) {
                 let stem: String = id
                     .chars()
                     .map(|c| {

@@ -213,7 +213,7 @@ fn test_view(k: usize, t: &TestResult, figures: Vec<RenderedFigure>) -> TestView
             .iter()
             .map(|c| CheckRow {
                 id: c.id.clone(),
-                kind: c.check_type.replace('_', " "),
+                kind: c.check_type.name().replace('_', " "),
                 disturbance: c
                     .disturbance
                     .map(|d| format!("#{d}"))
@@ -224,9 +224,9 @@ fn test_view(k: usize, t: &TestResult, figures: Vec<RenderedFigure>) -> TestView
                     .reason
                     .map(|r| r.name().replace('_', " "))
                     .unwrap_or_default(),
-                measured: fmt_value(c.measured, &c.unit),
-                limit: fmt_value(c.limit, &c.unit),
-                margin: fmt_value(c.margin, &c.unit),
+                measured: fmt_value(c.measured, c.unit),
+                limit: fmt_value(c.limit, c.unit),
+                margin: fmt_value(c.margin, c.unit),
                 at: c
                     .at_s
                     .map(|a| format!("{a:.4} s"))
@@ -251,10 +251,7 @@ pub fn inline_svg(svg: &str) -> String {
 }
 
 /// Renders the report page.
-pub fn render(
-    results: &Results,
-    figures: Vec<Vec<RenderedFigure>>,
-) -> Result<String, askama::Error> {
+pub fn render(results: &Results, figures: &super::FigureSet) -> Result<String, askama::Error> {
     let counts = results.counts();
     let mut rules = vec![(
         results.rules.id.clone().unwrap_or_default(),
@@ -292,10 +289,12 @@ pub fn render(
         tests: results
             .tests
             .iter()
-            .zip(figures.into_iter().chain(std::iter::repeat_with(Vec::new)))
             .enumerate()
-            .map(|(k, (t, f))| {
-                let f = f
+            .map(|(k, t)| {
+                let f = figures
+                    .get(&t.id)
+                    .cloned()
+                    .unwrap_or_default()
                     .into_iter()
                     .map(|mut x| {
                         x.svg = inline_svg(&x.svg);

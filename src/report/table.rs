@@ -52,9 +52,9 @@ pub fn render(results: &Results, tty: bool) -> String {
                 ),
                 verdict,
                 Cell::new(c.reason.map(|r| r.name()).unwrap_or("–")),
-                Cell::new(fmt_value(c.measured, &c.unit)),
-                Cell::new(fmt_value(c.limit, &c.unit)),
-                Cell::new(fmt_value(c.margin, &c.unit)),
+                Cell::new(fmt_value(c.measured, c.unit)),
+                Cell::new(fmt_value(c.limit, c.unit)),
+                Cell::new(fmt_value(c.margin, c.unit)),
             ]);
         }
     }

@@ -5,6 +5,7 @@
 //! magnitude change is a common cause); a trip during a disturbance follows
 //! the zone checks that judged it.
 
+use super::checks::{CheckKind, Unit};
 use super::result::{CheckResult, Reason, Verdict};
 use crate::analysis::events::{Disturbance, TripInfo, TripMethod};
 
@@ -34,7 +35,7 @@ fn value_at(t: &[f64], v: &[f64], at: f64) -> Option<f64> {
 }
 
 pub fn evaluate(inp: &ConnectionInput<'_>) -> CheckResult {
-    let mut r = CheckResult::new(ID, ID, None, "pu");
+    let mut r = CheckResult::new(ID, CheckKind::Connection, None, Unit::Pu);
     let Some(&t_end) = inp.t.last() else {
         return r.decide(
             Verdict::Inconclusive,

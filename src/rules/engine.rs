@@ -1,17 +1,15 @@
 //! Applies a rule set to one analysed recording: each check to each
 //! disturbance it concerns, each disturbance judged on its own, and the
-//! `connection` check over the whole recording.
+//! `connection` check over the whole recording. The engine knows no check
+//! type: it asks each through the [`Check`] trait.
 
+use super::checks::{Check, CheckKind, Context, Overlay, Unit};
 use super::connection::{self, ConnectionInput};
-use super::reactive::{self, ReactiveInput};
 use super::realisation::{self, Expect};
-use super::recovery::{self, RecoveryInput};
 use super::result::{CheckResult, Reason, Verdict};
-use super::spec::{AppliesTo, Bound, Cessation, CheckSpec, RuleSet, Sequence, Side};
-use super::zone::{self, ConnectionFacts};
+use super::spec::RuleSet;
 use crate::analysis::events::{
-    detect_disturbances, detect_trip, ApplicableVoltage, DetectionSettings, Disturbance,
-    DisturbanceKind, TripInfo, TripMethod,
+    detect_disturbances, detect_trip, ApplicableVoltage, DetectionSettings, Disturbance, TripInfo,
 };
 use crate::analysis::{Quantity, Series};
 
@@ -43,39 +41,10 @@ pub fn detection_settings(rules: &RuleSet, frequency_hz: f64) -> DetectionSettin
     s.recovery_allowance_s = rules
         .checks
         .iter()
-        .filter_map(|c| match c {
-            CheckSpec::ActivePowerRecovery(a) => Some(a.within_s + a.hold_s),
-            _ => None,
-        })
+        .filter_map(|c| c.check().recovery_allowance_s())
         .fold(None, |m: Option<f64>, x| Some(m.map_or(x, |m| m.max(x))))
         .unwrap_or(1.0);
     s
-}
-
-/// Does a check concern a disturbance of this kind?
-fn concerns(spec: &CheckSpec, kind: DisturbanceKind) -> bool {
-    let under = kind == DisturbanceKind::Undervoltage;
-    match spec {
-        CheckSpec::Envelope(e) => (e.bound == Bound::Lower) == under,
-        CheckSpec::DurationTable(tb) => (tb.side == Side::Below) == under,
-        CheckSpec::ReactiveCurrent(r) => match r.applies_to {
-            AppliesTo::Both => true,
-            AppliesTo::Undervoltage => under,
-            AppliesTo::Overvoltage => !under,
-        },
-        CheckSpec::ActivePowerRecovery(_) => true,
-    }
-}
-
-fn is_zone(spec: &CheckSpec) -> bool {
-    matches!(spec, CheckSpec::Envelope(_) | CheckSpec::DurationTable(_))
-}
-
-fn unit_of(spec: &CheckSpec) -> &'static str {
-    match spec {
-        CheckSpec::Envelope(_) => "pu",
-        _ => "s",
-    }
 }
 
 /// Every check inconclusive for one reason (the recording cannot be judged).
@@ -90,15 +59,16 @@ fn all_undecided(
         out.push(
             CheckResult::new(
                 realisation::ID,
-                realisation::TYPE,
+                CheckKind::TestRealisation,
                 Some(e.disturbance),
-                "pu",
+                Unit::Pu,
             )
             .decide(Verdict::Inconclusive, reason, why.to_string()),
         );
     }
     out.extend(rules.checks.iter().map(|c| {
-        CheckResult::new(c.id(), c.type_name(), None, unit_of(c)).decide(
+        let c = c.check();
+        CheckResult::new(c.id(), c.kind(), None, c.unit()).decide(
             Verdict::Inconclusive,
             reason,
             why.to_string(),
@@ -107,213 +77,151 @@ fn all_undecided(
     out
 }
 
-/// One check for one disturbance.
-struct Place<'a> {
+/// The context of disturbance `k` (what its checks see).
+fn context<'a>(
     series: &'a Series,
     v: &'a [f64],
-    d: &'a Disturbance,
+    disturbances: &'a [Disturbance],
+    k: usize,
     trip: &'a TripInfo,
-    /// Trip time attributed to this disturbance.
-    trip_in: Option<f64>,
-    trip_before: Option<f64>,
-    /// Where this disturbance's window ends: the next start or the recording end.
-    win_end: f64,
-    next_start: Option<f64>,
-    rec_end: f64,
     cycle: f64,
-}
-
-fn zone_check(spec: &CheckSpec, p: &Place<'_>, r: CheckResult) -> CheckResult {
-    let (t, v, d) = (&p.series.t, p.v, p.d);
-    let scan_end = p.trip_in.unwrap_or(p.win_end);
-    let (bound, last, cessation): (Bound, f64, Cessation) = match spec {
-        CheckSpec::Envelope(e) => (
-            e.bound,
-            e.points.last().map_or(0.0, |x| x[0]),
-            e.momentary_cessation,
-        ),
-        CheckSpec::DurationTable(tb) => (
-            if tb.side == Side::Below {
-                Bound::Lower
-            } else {
-                Bound::Upper
-            },
-            tb.rows.iter().map(|r| r.max_s).fold(0.0, f64::max),
-            tb.momentary_cessation,
-        ),
-        _ => unreachable!("zone checks only"),
-    };
-    let scan = |v: &[f64]| match spec {
-        CheckSpec::Envelope(e) => {
-            zone::scan_envelope(t, v, d.start_s, scan_end, e.bound, &e.points)
-        }
-        CheckSpec::DurationTable(tb) => {
-            zone::scan_table(t, v, d.start_s, scan_end, tb.side, &tb.rows, tb.mode)
-        }
-        _ => unreachable!("zone checks only"),
-    };
-    let timing = zone::Timing {
-        t0: d.start_s,
-        end_s: d.end_s,
-        cycle_s: p.cycle,
-        recording_end_s: p.rec_end,
-        // Only a disturbance that never ended needs the recording to reach
-        // the requirement's last time.
-        needs_until_s: if d.end_s.is_some() {
-            f64::NEG_INFINITY
-        } else {
-            d.start_s + last
-        },
-    };
-    let conn = ConnectionFacts {
-        trip_s: p.trip_in,
-        tripped_before_s: p.trip_before,
-        trip_visible: p.trip.method != TripMethod::None,
-        cessations: p.trip.cessations.clone(),
-    };
-    let measured = scan(v);
-    let short = d.end_s.is_some_and(|e| e - d.start_s < 2.0 * p.cycle);
-    let deep = (short && p.trip_in.is_some()).then(|| scan(&zone::deepest(t, v, &timing, bound)));
-    zone::zone_verdict(r, &measured, deep.as_ref(), &conn, &timing, cessation)
-}
-
-fn reactive_check(
-    rc: &super::spec::ReactiveCurrentSpec,
-    p: &Place<'_>,
-    r: CheckResult,
-) -> CheckResult {
-    let series = p.series;
-    let d = p.d;
-    let (vq, iq) = match rc.sequence {
-        Sequence::Positive => (Quantity::V1, Quantity::Iq),
-        Sequence::Negative => (Quantity::V2, Quantity::Iq2),
-    };
-    let (Some(vs), Some(is)) = (series.get(vq), series.get(iq)) else {
-        return r.decide(
-            Verdict::Inconclusive,
-            Reason::MissingChannel,
-            format!(
-                "the recording has no {} reactive current (currents missing{})",
-                if rc.sequence == Sequence::Negative {
-                    "negative-sequence"
-                } else {
-                    "positive-sequence"
-                },
-                if rc.sequence == Sequence::Negative {
-                    ", or an RMS-level recording without phases"
-                } else {
-                    ""
-                }
-            ),
-        );
-    };
-    let Some(pre) = &d.prefault else {
-        return r.decide(
-            Verdict::Inconclusive,
-            Reason::NoPrefaultReference,
-            format!(
-                "no pre-fault reference: {}",
-                d.prefault_problem
-                    .clone()
-                    .unwrap_or_else(|| "too little data before the disturbance".into())
-            ),
-        );
-    };
-    let (v_pre, iq_pre) = match rc.sequence {
-        Sequence::Positive => (pre.v1_pu, pre.iq_pu.unwrap_or(f64::NAN)),
-        Sequence::Negative => (
-            pre.v2_pu.unwrap_or(0.0),
-            pre.iq2_pu.filter(|x| x.is_finite()).unwrap_or(0.0),
-        ),
-    };
-    if !iq_pre.is_finite() {
-        return r.decide(
-            Verdict::Inconclusive,
-            Reason::NoPrefaultReference,
-            "no pre-fault reactive current reference",
-        );
+) -> Context<'a> {
+    let d = &disturbances[k];
+    let rec_end = series.t.last().copied().unwrap_or(0.0);
+    let next_start = disturbances.get(k + 1).map(|n| n.start_s);
+    let win_end = next_start.unwrap_or(rec_end);
+    let trip_time = if trip.tripped { trip.time_s } else { None };
+    Context {
+        series,
+        v,
+        d,
+        trip,
+        trip_in: trip_time.filter(|tt| *tt >= d.start_s - cycle && *tt < win_end),
+        trip_before: trip_time.filter(|tt| *tt < d.start_s - cycle),
+        win_end,
+        next_start,
+        rec_end,
+        cycle,
     }
-    let inp = ReactiveInput {
+}
+
+/// The sentence of a check that concerns no disturbance of the recording.
+fn not_triggered(
+    c: &dyn Check,
+    det: &DetectionSettings,
+    disturbances: &[Disturbance],
+) -> CheckResult {
+    use crate::analysis::events::DisturbanceKind::{Overvoltage, Undervoltage};
+    let what = match (c.concerns(Undervoltage), c.concerns(Overvoltage)) {
+        (true, false) => "undervoltage",
+        (false, true) => "overvoltage",
+        _ => "",
+    };
+    let sentence = if disturbances.is_empty() {
+        format!(
+            "the recording shows no disturbance ({} voltage stayed within {}..{} pu)",
+            det.applicable.name().replace('_', " "),
+            det.below_pu,
+            det.above_pu
+        )
+    } else {
+        format!(
+            "no {what} disturbance in the recording (found: {})",
+            disturbances
+                .iter()
+                .map(|d| d.kind.name())
+                .collect::<Vec<_>>()
+                .join(", ")
+        )
+    };
+    CheckResult::new(c.id(), c.kind(), None, c.unit()).decide(
+        Verdict::NotApplicable,
+        Reason::NotTriggered,
+        sentence,
+    )
+}
+
+/// Inconclusive and not-applicable rows carry no measured value or margin;
+/// the verdict of the recording from its checks.
+fn finish(
+    mut checks: Vec<CheckResult>,
+    notes: Vec<String>,
+    disturbances: Vec<Disturbance>,
+    trip: TripInfo,
+    applicable: Option<Vec<f64>>,
+) -> Outcome {
+    for c in &mut checks {
+        c.clear_if_undecided();
+    }
+    Outcome {
+        verdict: Verdict::combine(checks.iter().map(|c| c.verdict)),
+        disturbances,
+        trip,
+        checks,
+        notes,
+        applicable,
+    }
+}
+
+/// A recording without analysed samples, or whose applicable voltage is
+/// not available: every check inconclusive, and the connection check
+/// knows no disturbance.
+fn undecidable(
+    series: &Series,
+    rules: &RuleSet,
+    det: &DetectionSettings,
+    expect: Option<&Expect>,
+    trip: TripInfo,
+    mut notes: Vec<String>,
+    why: String,
+) -> Outcome {
+    let cycle = 1.0 / det.frequency_hz;
+    if series.is_empty() {
+        let why = "no analysed samples: the recording is shorter than one analysis window (one nominal cycle of samples), so it cannot be judged";
+        notes.push(why.into());
+        let mut checks = all_undecided(rules, expect, Reason::InsufficientData, why);
+        checks.insert(
+            0,
+            CheckResult::new(connection::ID, CheckKind::Connection, None, Unit::Pu).decide(
+                Verdict::Inconclusive,
+                Reason::InsufficientData,
+                why,
+            ),
+        );
+        return finish(checks, notes, Vec::new(), trip, None);
+    }
+    let unobservable = matches!(
+        det.applicable,
+        ApplicableVoltage::MinPhaseToNeutral | ApplicableVoltage::MaxPhaseToNeutral
+    ) && series.has(Quantity::Va)
+        && !series.has(Quantity::V0);
+    let (reason, hint) = if unobservable {
+        (
+            Reason::VoltageUnobservable,
+            "; map the residual voltage (vn) or use a rule set that judges phase-to-phase voltages",
+        )
+    } else {
+        (Reason::MissingChannel, "")
+    };
+    let sentence = format!(
+        "{why}; the rule set judges the {} voltage{hint}",
+        det.applicable.name().replace('_', " ")
+    );
+    notes.push(why);
+    let mut checks = all_undecided(rules, expect, reason, &sentence);
+    let conn = connection::evaluate(&ConnectionInput {
         t: &series.t,
-        v: vs,
-        iq: is,
-        start_s: d.start_s,
-        inception_s: d.inception_s,
-        end_s: d.end_s.unwrap_or(p.rec_end),
-        ended: d.end_s.is_some(),
-        v_pre,
-        iq_pre,
-        trip_s: p.trip_in,
-        cycle_s: p.cycle,
-    };
-    reactive::evaluate(rc, &inp, r)
-}
-
-fn recovery_check(
-    ap: &super::spec::ActivePowerRecoverySpec,
-    p: &Place<'_>,
-    r: CheckResult,
-) -> CheckResult {
-    let Some(pw) = p.series.get(Quantity::P) else {
-        return r.decide(
-            Verdict::Inconclusive,
-            Reason::MissingChannel,
-            "the recording has no active power (currents missing)",
-        );
-    };
-    let inp = RecoveryInput {
-        t: &p.series.t,
-        p: pw,
-        end_s: p.d.end_s,
-        p_pre: p.d.prefault.and_then(|x| x.p_pu),
-        trip_s: p.trip_in,
-        search_end_s: p.win_end,
-        next_start_s: p.next_start,
-    };
-    recovery::evaluate(ap, &inp, r)
-}
-
-/// Active power recovery after a trip (decision C.11): required unless
-/// every zone check concerning the disturbance calls the trip permitted.
-fn excuse_recovery(checks: &mut [CheckResult], zone_ids: &[&str]) {
-    let zone: Vec<(Option<usize>, Option<Reason>)> = checks
-        .iter()
-        .filter(|c| zone_ids.contains(&c.id.as_str()))
-        .map(|c| (c.disturbance, c.reason))
-        .collect();
-    for c in checks.iter_mut() {
-        if c.check_type != "active_power_recovery"
-            || c.reason != Some(Reason::TrippedBeforeRecovery)
-        {
-            continue;
-        }
-        let of: Vec<Option<Reason>> = zone
-            .iter()
-            .filter(|(d, _)| *d == c.disturbance)
-            .map(|(_, r)| *r)
-            .collect();
-        if of.is_empty() || of.contains(&Some(Reason::TripInsideZone)) {
-            continue;
-        }
-        if of.iter().all(|r| *r == Some(Reason::PermittedTrip)) {
-            c.permitted_trip = None;
-            let detail = format!(
-                "{}; every ride-through check calls the trip permitted (the voltage had left the zone), so recovery is not required",
-                c.detail
-            );
-            *c = c
-                .clone()
-                .decide(Verdict::NotApplicable, Reason::TripPermitted, detail);
-        } else {
-            let detail = format!(
-                "{}; whether recovery was required depends on ride-through checks that could not decide",
-                c.detail
-            );
-            *c = c
-                .clone()
-                .decide(Verdict::Inconclusive, Reason::TripNotJudged, detail);
-        }
-    }
+        v: None,
+        trip: &trip,
+        disturbances: &[],
+        zone_checked: &[],
+        zone: &[],
+        forbid_cessation: false,
+        band: (det.below_pu, det.above_pu),
+        cycle_s: cycle,
+    });
+    checks.insert(0, conn);
+    finish(checks, notes, Vec::new(), trip, None)
 }
 
 pub fn evaluate(
@@ -328,192 +236,47 @@ pub fn evaluate(
     if let Some(n) = &trip.note {
         notes.push(n.clone());
     }
-    let t = &series.t;
-    let band = (det.below_pu, det.above_pu);
-    let zone_ids: Vec<&str> = rules
-        .checks
-        .iter()
-        .filter(|c| is_zone(c))
-        .map(|c| c.id())
-        .collect();
-    let forbid_cessation = rules.checks.iter().any(|c| match c {
-        CheckSpec::Envelope(e) => e.momentary_cessation == Cessation::Forbidden,
-        CheckSpec::DurationTable(tb) => tb.momentary_cessation == Cessation::Forbidden,
-        _ => false,
-    });
-    let finish = |mut checks: Vec<CheckResult>,
-                  notes: Vec<String>,
-                  disturbances: Vec<Disturbance>,
-                  trip: TripInfo,
-                  applicable: Option<Vec<f64>>| {
-        for c in &mut checks {
-            c.clear_if_undecided();
-        }
-        Outcome {
-            verdict: Verdict::combine(checks.iter().map(|c| c.verdict)),
-            disturbances,
-            trip,
-            checks,
-            notes,
-            applicable,
-        }
-    };
     if series.is_empty() {
-        let why = "no analysed samples: the recording is shorter than one analysis window (one nominal cycle of samples), so it cannot be judged";
-        notes.push(why.into());
-        let mut checks = all_undecided(rules, expect, Reason::InsufficientData, why);
-        checks.insert(
-            0,
-            CheckResult::new(connection::ID, connection::ID, None, "pu").decide(
-                Verdict::Inconclusive,
-                Reason::InsufficientData,
-                why,
-            ),
-        );
-        return finish(checks, notes, Vec::new(), trip, None);
+        return undecidable(series, rules, det, expect, trip, notes, String::new());
     }
-    let rec_end = t.last().copied().unwrap_or(0.0);
     let (disturbances, v) = match (
         detect_disturbances(series, det),
         det.applicable.series(series),
     ) {
         (Ok(d), Ok(v)) => (d, v),
         (Err(why), _) | (_, Err(why)) => {
-            let unobservable = matches!(
-                det.applicable,
-                ApplicableVoltage::MinPhaseToNeutral | ApplicableVoltage::MaxPhaseToNeutral
-            ) && series.has(Quantity::Va)
-                && !series.has(Quantity::V0);
-            let (reason, hint) = if unobservable {
-                (
-                    Reason::VoltageUnobservable,
-                    "; map the residual voltage (vn) or use a rule set that judges phase-to-phase voltages",
-                )
-            } else {
-                (Reason::MissingChannel, "")
-            };
-            let sentence = format!(
-                "{why}; the rule set judges the {} voltage{hint}",
-                det.applicable.name().replace('_', " ")
-            );
-            notes.push(why);
-            let mut checks = all_undecided(rules, expect, reason, &sentence);
-            let conn = connection::evaluate(&ConnectionInput {
-                t,
-                v: None,
-                trip: &trip,
-                disturbances: &[],
-                zone_checked: &[],
-                zone: &[],
-                forbid_cessation: false,
-                band,
-                cycle_s: cycle,
-            });
-            checks.insert(0, conn);
-            return finish(checks, notes, Vec::new(), trip, None);
+            return undecidable(series, rules, det, expect, trip, notes, why)
         }
     };
-    let trip_time = if trip.tripped { trip.time_s } else { None };
+    let checks_of: Vec<&dyn Check> = rules.checks.iter().map(|c| c.check()).collect();
     let mut checks = Vec::new();
     if let Some(e) = expect {
         checks.push(realisation::evaluate(e, &disturbances));
     }
     let conn_at = checks.len();
-    for spec in &rules.checks {
+    // Each check for each disturbance it concerns, in rule-set order.
+    let first_rule_row = checks.len();
+    for c in &checks_of {
         let mut any = false;
         for (k, d) in disturbances.iter().enumerate() {
-            if !concerns(spec, d.kind) {
+            if !c.concerns(d.kind) {
                 continue;
             }
             any = true;
-            let next_start = disturbances.get(k + 1).map(|n| n.start_s);
-            let win_end = next_start.unwrap_or(rec_end);
-            let place = Place {
-                series,
-                v: &v,
-                d,
-                trip: &trip,
-                trip_in: trip_time.filter(|tt| *tt >= d.start_s - cycle && *tt < win_end),
-                trip_before: trip_time.filter(|tt| *tt < d.start_s - cycle),
-                win_end,
-                next_start,
-                rec_end,
-                cycle,
-            };
-            let r = CheckResult::new(spec.id(), spec.type_name(), Some(k), unit_of(spec));
-            checks.push(match spec {
-                CheckSpec::Envelope(_) | CheckSpec::DurationTable(_) => zone_check(spec, &place, r),
-                CheckSpec::ReactiveCurrent(rc) => reactive_check(rc, &place, r),
-                CheckSpec::ActivePowerRecovery(ap) => recovery_check(ap, &place, r),
-            });
+            let ctx = context(series, &v, &disturbances, k, &trip, cycle);
+            let r = CheckResult::new(c.id(), c.kind(), Some(k), c.unit());
+            checks.push(c.evaluate(&ctx, r));
         }
         if !any {
-            let what = match spec {
-                CheckSpec::Envelope(e) if e.bound == Bound::Upper => "overvoltage",
-                CheckSpec::DurationTable(tb) if tb.side == Side::Above => "overvoltage",
-                CheckSpec::Envelope(_) | CheckSpec::DurationTable(_) => "undervoltage",
-                CheckSpec::ReactiveCurrent(rc) => match rc.applies_to {
-                    AppliesTo::Overvoltage => "overvoltage",
-                    AppliesTo::Undervoltage => "undervoltage",
-                    AppliesTo::Both => "",
-                },
-                CheckSpec::ActivePowerRecovery(_) => "",
-            };
-            let sentence = if disturbances.is_empty() {
-                format!(
-                    "the recording shows no disturbance ({} voltage stayed within {}..{} pu)",
-                    det.applicable.name().replace('_', " "),
-                    det.below_pu,
-                    det.above_pu
-                )
-            } else {
-                format!(
-                    "no {what} disturbance in the recording (found: {})",
-                    disturbances
-                        .iter()
-                        .map(|d| d.kind.name())
-                        .collect::<Vec<_>>()
-                        .join(", ")
-                )
-            };
-            checks.push(
-                CheckResult::new(spec.id(), spec.type_name(), None, unit_of(spec)).decide(
-                    Verdict::NotApplicable,
-                    Reason::NotTriggered,
-                    sentence,
-                ),
-            );
+            checks.push(not_triggered(*c, det, &disturbances));
         }
     }
-    excuse_recovery(&mut checks, &zone_ids);
-    let zone_checked: Vec<bool> = disturbances
-        .iter()
-        .map(|d| {
-            rules
-                .checks
-                .iter()
-                .any(|c| is_zone(c) && concerns(c, d.kind))
-        })
-        .collect();
-    let zone_results: Vec<&CheckResult> = checks
-        .iter()
-        .filter(|c| zone_ids.contains(&c.id.as_str()) && c.disturbance.is_some())
-        .collect();
-    let conn = connection::evaluate(&ConnectionInput {
-        t,
-        v: Some(&v),
-        trip: &trip,
-        disturbances: &disturbances,
-        zone_checked: &zone_checked,
-        zone: &zone_results,
-        forbid_cessation,
-        band,
-        cycle_s: cycle,
-    });
+    review(&mut checks[first_rule_row..], &checks_of);
+    let conn = connection_check(series, &v, &disturbances, &trip, &checks, &checks_of, det);
     checks.insert(conn_at, conn);
     let judged = checks
         .iter()
-        .filter(|c| c.id != connection::ID)
+        .filter(|c| c.check_type != CheckKind::Connection)
         .collect::<Vec<_>>();
     if !judged.is_empty() && judged.iter().all(|c| c.verdict == Verdict::NotApplicable) {
         notes.push(
@@ -522,4 +285,86 @@ pub fn evaluate(
         );
     }
     finish(checks, notes, disturbances, trip, Some(v))
+}
+
+/// Lets each check look at the zone checks of its disturbance
+/// ([`Check::review`]).
+fn review(rows: &mut [CheckResult], checks_of: &[&dyn Check]) {
+    let spec_of = |id: &str| checks_of.iter().find(|c| c.id() == id).copied();
+    let zone: Vec<CheckResult> = rows
+        .iter()
+        .filter(|r| spec_of(&r.id).is_some_and(|c| c.zone().is_some()))
+        .cloned()
+        .collect();
+    for r in rows.iter_mut() {
+        let Some(c) = spec_of(&r.id) else { continue };
+        let of: Vec<&CheckResult> = zone
+            .iter()
+            .filter(|z| z.disturbance == r.disturbance)
+            .collect();
+        c.review(r, &of);
+    }
+}
+
+/// The connection check, from the zone checks' results (decision A.1).
+fn connection_check(
+    series: &Series,
+    v: &[f64],
+    disturbances: &[Disturbance],
+    trip: &TripInfo,
+    checks: &[CheckResult],
+    checks_of: &[&dyn Check],
+    det: &DetectionSettings,
+) -> CheckResult {
+    let zones: Vec<&&dyn Check> = checks_of.iter().filter(|c| c.zone().is_some()).collect();
+    let zone_checked: Vec<bool> = disturbances
+        .iter()
+        .map(|d| zones.iter().any(|c| c.concerns(d.kind)))
+        .collect();
+    let zone_results: Vec<&CheckResult> = checks
+        .iter()
+        .filter(|r| r.disturbance.is_some() && zones.iter().any(|c| c.id() == r.id))
+        .collect();
+    connection::evaluate(&ConnectionInput {
+        t: &series.t,
+        v: Some(v),
+        trip,
+        disturbances,
+        zone_checked: &zone_checked,
+        zone: &zone_results,
+        forbid_cessation: zones
+            .iter()
+            .any(|c| c.zone().is_some_and(|z| z.forbids_cessation)),
+        band: (det.below_pu, det.above_pu),
+        cycle_s: 1.0 / det.frequency_hz,
+    })
+}
+
+/// What the checks hand to the figures: each result that concerns a
+/// disturbance, with its overlay.
+pub fn overlays<'a>(
+    series: &Series,
+    rules: &RuleSet,
+    det: &DetectionSettings,
+    outcome: &'a Outcome,
+) -> Vec<(&'a CheckResult, Overlay)> {
+    let Some(v) = outcome.applicable.as_deref() else {
+        return Vec::new();
+    };
+    let cycle = 1.0 / det.frequency_hz;
+    let mut out = Vec::new();
+    for r in &outcome.checks {
+        let (Some(k), Some(spec)) = (r.disturbance, rules.checks.iter().find(|c| c.id() == r.id))
+        else {
+            continue;
+        };
+        if k >= outcome.disturbances.len() {
+            continue;
+        }
+        let ctx = context(series, v, &outcome.disturbances, k, &outcome.trip, cycle);
+        if let Some(o) = spec.check().overlay(r, &ctx) {
+            out.push((r, o));
+        }
+    }
+    out
 }

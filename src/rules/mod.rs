@@ -3,20 +3,19 @@
 //! * [`spec`] – the rule-set format (serde types) and its validation;
 //! * [`zone`] – envelopes and duration tables (ride-through zone);
 //! * [`connection`] – did the unit stay connected outside disturbances;
-//! * [`reactive`] – reactive current injection;
-//! * [`recovery`] – active power recovery;
+//! * [`checks`] – the check types, one module each (envelope, duration
+//!   table, reactive current, active power recovery);
 //! * [`realisation`] – did the recording apply the planned test;
 //! * [`engine`] – applies a rule set to one recording;
 //! * [`result`] – the neutral result type every reporter renders.
 
+pub mod checks;
 pub mod connection;
 pub mod engine;
 pub mod library;
 pub mod locate;
 pub mod params;
-pub mod reactive;
 pub mod realisation;
-pub mod recovery;
 pub mod result;
 pub mod schema;
 pub mod spec;

@@ -6,6 +6,7 @@
 //! duration runs from inception to clearance on waveforms (disturbance end
 //! minus start at RMS level, where no waveform shows the edges).
 
+use super::checks::{CheckKind, Unit};
 use super::result::{CheckResult, Reason, Verdict};
 use crate::analysis::events::{Balance, Disturbance};
 use schemars::JsonSchema;
@@ -46,9 +47,8 @@ fn d_res_tol() -> f64 {
     0.05
 }
 
-/// The check's id and type in results.
+/// The check's id in results (its type is `test_realisation`).
 pub const ID: &str = "realisation";
-pub const TYPE: &str = "test_realisation";
 
 impl Expect {
     pub fn problems(&self) -> Vec<(&'static str, String)> {
@@ -89,7 +89,12 @@ impl Expect {
 }
 
 pub fn evaluate(e: &Expect, disturbances: &[Disturbance]) -> CheckResult {
-    let mut r = CheckResult::new(ID, TYPE, Some(e.disturbance), "pu");
+    let mut r = CheckResult::new(
+        ID,
+        CheckKind::TestRealisation,
+        Some(e.disturbance),
+        Unit::Pu,
+    );
     let Some(d) = disturbances.get(e.disturbance) else {
         r.disturbance = None;
         return r.decide(
@@ -136,7 +141,7 @@ pub fn evaluate(e: &Expect, disturbances: &[Disturbance]) -> CheckResult {
                     &mut bad,
                 );
                 if worst.is_none() {
-                    r.unit = "s".into();
+                    r.unit = Unit::S;
                     worst = Some((got, want, m, d.start_s));
                 }
             }

@@ -2,6 +2,7 @@
 //! Field names are the `results.json` schema version 1 (interfaces.md);
 //! additions are optional fields only.
 
+pub use super::checks::{CheckKind, Unit};
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 use std::borrow::Cow;
@@ -167,7 +168,7 @@ pub struct Segment {
 pub struct CheckResult {
     pub id: String,
     #[serde(rename = "type")]
-    pub check_type: String,
+    pub check_type: CheckKind,
     /// Index into the test's `disturbances`, or null when none applied.
     #[schemars(with = "Nullable<usize>")]
     pub disturbance: Option<usize>,
@@ -180,7 +181,7 @@ pub struct CheckResult {
     #[schemars(with = "Nullable<f64>")]
     pub margin: Option<f64>,
     /// Unit of measured, limit and margin: `pu` or `s`.
-    pub unit: String,
+    pub unit: Unit,
     /// Time of the smallest margin, s from the first sample.
     #[schemars(with = "Nullable<f64>")]
     pub at_s: Option<f64>,
@@ -228,16 +229,16 @@ pub struct CheckResult {
 }
 
 impl CheckResult {
-    pub fn new(id: &str, check_type: &str, disturbance: Option<usize>, unit: &str) -> Self {
+    pub fn new(id: &str, check_type: CheckKind, disturbance: Option<usize>, unit: Unit) -> Self {
         CheckResult {
             id: id.to_string(),
-            check_type: check_type.to_string(),
+            check_type,
             disturbance,
             verdict: Verdict::Inconclusive,
             measured: None,
             limit: None,
             margin: None,
-            unit: unit.to_string(),
+            unit,
             at_s: None,
             detail: String::new(),
             settling_time_s: None,

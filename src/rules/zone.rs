@@ -8,8 +8,11 @@
 //! `d_i − r_i(t)` over the rows the voltage is beyond (continuous mode) or
 //! has been beyond (cumulative), in s, inside while > 0.
 
+use super::checks::duration_table::{Side, TableMode, TableRow};
+use super::checks::envelope::{Bound, Cessation};
+use super::checks::{Context, Overlay, Unit};
 use super::result::{CheckResult, Reason, Verdict};
-use super::spec::{Bound, Cessation, Side, TableMode, TableRow};
+use crate::analysis::events::TripMethod;
 
 /// The boundary `C(τ)` of an envelope: linear between points, a repeated
 /// time is a vertical step (the later point holds from that time on), flat
@@ -86,7 +89,7 @@ pub struct ZoneScan {
     /// First time the voltage was outside the zone.
     pub first_outside: Option<f64>,
     /// Unit of headroom, measured and limit.
-    pub unit: &'static str,
+    pub unit: Unit,
     /// Table: the headroom when no row is active (the shortest non-zero
     /// `max_s`); NaN for envelopes.
     pub idle_headroom: f64,
@@ -198,7 +201,7 @@ pub fn scan_envelope(
         measured: Vec::new(),
         limit: Vec::new(),
         first_outside: None,
-        unit: "pu",
+        unit: Unit::Pu,
         idle_headroom: f64::NAN,
         lower: bound == Bound::Lower,
         against: Against::Envelope(points.to_vec()),
@@ -250,7 +253,7 @@ pub fn scan_table(
         measured: Vec::new(),
         limit: Vec::new(),
         first_outside: None,
-        unit: "s",
+        unit: Unit::S,
         idle_headroom: if idle.is_finite() { idle } else { f64::NAN },
         lower: side == Side::Below,
         against: Against::Table {
@@ -368,7 +371,7 @@ fn judge(
 ) -> CheckResult {
     let t0 = timing.t0;
     r.left_zone_s = scan.first_outside;
-    r.unit = scan.unit.into();
+    r.unit = scan.unit;
     let set = |r: &mut CheckResult, k: usize| {
         let (m, l) = scan.values_at(k);
         r.measured = m;
@@ -392,7 +395,7 @@ fn judge(
         return match scan.first_outside {
             Some(o) if o <= tt => {
                 r.permitted_trip = Some(true);
-                r.unit = "s".into();
+                r.unit = Unit::S;
                 r.measured = Some(tt - o);
                 r.limit = Some(0.0);
                 r.margin = Some(tt - o);
@@ -573,5 +576,61 @@ pub fn zone_verdict(
             deepest.verdict.name()
         );
         measured.decide(Verdict::Inconclusive, Reason::DepthUnresolved, detail)
+    }
+}
+
+/// A zone check of one disturbance: scans the zone from the start to the
+/// trip (or the next disturbance), and for a fault shorter than two cycles
+/// the deepest case too, then gives the verdict. `last` is the
+/// requirement's last time (s after the start); `scan(t, v, t0, end)`
+/// scans the check's own zone.
+pub fn evaluate(
+    ctx: &Context<'_>,
+    r: CheckResult,
+    bound: Bound,
+    last: f64,
+    cessation: Cessation,
+    scan: impl Fn(&[f64], &[f64], f64, f64) -> ZoneScan,
+) -> CheckResult {
+    let (t, v, d) = (&ctx.series.t, ctx.v, ctx.d);
+    let scan_end = ctx.trip_in.unwrap_or(ctx.win_end);
+    let timing = Timing {
+        t0: d.start_s,
+        end_s: d.end_s,
+        cycle_s: ctx.cycle,
+        recording_end_s: ctx.rec_end,
+        // Only a disturbance that never ended needs the recording to reach
+        // the requirement's last time.
+        needs_until_s: if d.end_s.is_some() {
+            f64::NEG_INFINITY
+        } else {
+            d.start_s + last
+        },
+    };
+    let conn = ConnectionFacts {
+        trip_s: ctx.trip_in,
+        tripped_before_s: ctx.trip_before,
+        trip_visible: ctx.trip.method != TripMethod::None,
+        cessations: ctx.trip.cessations.clone(),
+    };
+    let measured = scan(t, v, d.start_s, scan_end);
+    let short = d.end_s.is_some_and(|e| e - d.start_s < 2.0 * ctx.cycle);
+    let deep = (short && ctx.trip_in.is_some())
+        .then(|| scan(t, &deepest(t, v, &timing, bound), d.start_s, scan_end));
+    zone_verdict(r, &measured, deep.as_ref(), &conn, &timing, cessation)
+}
+
+/// The figure overlay of a zone boundary given as `[τ, pu]` points, placed
+/// at the disturbance start.
+pub fn overlay(points: &[[f64; 2]], lower: bool, start_s: f64, note: &'static str) -> Overlay {
+    Overlay::Zone {
+        boundary: points
+            .iter()
+            .filter(|p| p[1].is_finite())
+            .map(|p| (start_s + p[0], p[1]))
+            .collect(),
+        lower,
+        start_s,
+        note,
     }
 }

@@ -3,8 +3,159 @@
 //! `fraction · P_pre` and then stays there for `hold_s`. The search ends
 //! where the next disturbance starts.
 
-use super::result::{CheckResult, Reason, Verdict};
-use super::spec::ActivePowerRecoverySpec;
+use super::{Check, CheckKind, Context, FigureKind, Overlay, Unit};
+use crate::analysis::events::DisturbanceKind;
+use crate::analysis::Quantity;
+use crate::rules::result::{CheckResult, Reason, Verdict};
+use schemars::JsonSchema;
+use serde::{Deserialize, Serialize};
+
+#[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct ActivePowerRecoverySpec {
+    pub id: String,
+    /// Fraction of pre-fault active power to reach.
+    pub fraction: f64,
+    /// Time limit from disturbance end, s.
+    pub within_s: f64,
+    /// Not applicable below this pre-fault loading, pu (default 0.1).
+    #[serde(default = "d_minp")]
+    pub min_prefault_pu: f64,
+    /// The power must stay at or above the target this long, s (default 0).
+    #[serde(default)]
+    pub hold_s: f64,
+}
+
+fn d_minp() -> f64 {
+    0.1
+}
+
+impl Check for ActivePowerRecoverySpec {
+    fn id(&self) -> &str {
+        &self.id
+    }
+    fn kind(&self) -> CheckKind {
+        CheckKind::ActivePowerRecovery
+    }
+    fn unit(&self) -> Unit {
+        Unit::S
+    }
+    fn problems(&self, out: &mut Vec<(&'static str, String)>) {
+        let a = self;
+        let mut p = |key: &'static str, message: String| out.push((key, message));
+        if !(a.fraction > 0.0 && a.fraction <= 1.0) {
+            p(
+                "fraction",
+                format!("fraction {} must be in (0, 1]", a.fraction),
+            );
+        }
+        if !(a.within_s > 0.0 && a.within_s <= 60.0) {
+            p(
+                "within_s",
+                format!("within_s {} must be in (0, 60] s", a.within_s),
+            );
+        }
+        if !(a.hold_s >= 0.0 && a.hold_s <= 60.0) {
+            p(
+                "hold_s",
+                format!("hold_s {} must be in [0, 60] s", a.hold_s),
+            );
+        }
+        if !(a.min_prefault_pu >= 0.0 && a.min_prefault_pu < 1.0) {
+            p(
+                "min_prefault_pu",
+                format!("min_prefault_pu {} must be in [0, 1)", a.min_prefault_pu),
+            );
+        }
+    }
+    fn concerns(&self, _kind: DisturbanceKind) -> bool {
+        true
+    }
+    fn evaluate(&self, ctx: &Context<'_>, r: CheckResult) -> CheckResult {
+        evaluate_at(self, ctx, r)
+    }
+    /// After a trip (decision C.11): required unless every zone check
+    /// concerning the disturbance calls the trip permitted.
+    fn review(&self, c: &mut CheckResult, zone: &[&CheckResult]) {
+        if c.reason != Some(Reason::TrippedBeforeRecovery) {
+            return;
+        }
+        let of: Vec<Option<Reason>> = zone.iter().map(|z| z.reason).collect();
+        if of.is_empty() || of.contains(&Some(Reason::TripInsideZone)) {
+            return;
+        }
+        if of.iter().all(|r| *r == Some(Reason::PermittedTrip)) {
+            c.permitted_trip = None;
+            let detail = format!(
+                "{}; every ride-through check calls the trip permitted (the voltage had left the zone), so recovery is not required",
+                c.detail
+            );
+            *c = c
+                .clone()
+                .decide(Verdict::NotApplicable, Reason::TripPermitted, detail);
+        } else {
+            let detail = format!(
+                "{}; whether recovery was required depends on ride-through checks that could not decide",
+                c.detail
+            );
+            *c = c
+                .clone()
+                .decide(Verdict::Inconclusive, Reason::TripNotJudged, detail);
+        }
+    }
+    fn extent_s(&self) -> f64 {
+        self.within_s + 0.2
+    }
+    fn recovery_allowance_s(&self) -> Option<f64> {
+        Some(self.within_s + self.hold_s)
+    }
+    fn summary(&self) -> String {
+        format!(
+            "active power to {} of pre-fault within {} s (from {} pu loading)",
+            self.fraction, self.within_s, self.min_prefault_pu
+        )
+    }
+    fn figure(&self) -> FigureKind {
+        FigureKind::ActivePower
+    }
+    fn overlay(&self, c: &CheckResult, ctx: &Context<'_>) -> Option<Overlay> {
+        let (p0, end) = (c.prefault_pu?, ctx.d.end_s?);
+        let reached = match (c.at_s, c.measured) {
+            (Some(at), Some(m)) => Some((at, m)),
+            _ => None,
+        };
+        Some(Overlay::Power {
+            target: self.fraction * p0,
+            from: end,
+            deadline: end + self.within_s,
+            fraction: self.fraction,
+            within_s: self.within_s,
+            reached,
+        })
+    }
+}
+
+/// The check of one disturbance: P, its pre-fault value, the trip and
+/// where the search ends, then [`evaluate_input`].
+fn evaluate_at(ap: &ActivePowerRecoverySpec, p: &Context<'_>, r: CheckResult) -> CheckResult {
+    let Some(pw) = p.series.get(Quantity::P) else {
+        return r.decide(
+            Verdict::Inconclusive,
+            Reason::MissingChannel,
+            "the recording has no active power (currents missing)",
+        );
+    };
+    let inp = RecoveryInput {
+        t: &p.series.t,
+        p: pw,
+        end_s: p.d.end_s,
+        p_pre: p.d.prefault.and_then(|x| x.p_pu),
+        trip_s: p.trip_in,
+        search_end_s: p.win_end,
+        next_start_s: p.next_start,
+    };
+    evaluate_input(ap, &inp, r)
+}
 
 pub struct RecoveryInput<'a> {
     pub t: &'a [f64],
@@ -47,7 +198,7 @@ fn first_held(
     Err(run)
 }
 
-pub fn evaluate(
+pub fn evaluate_input(
     spec: &ActivePowerRecoverySpec,
     inp: &RecoveryInput<'_>,
     mut r: CheckResult,

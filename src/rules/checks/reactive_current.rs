@@ -27,8 +27,276 @@
 //!   inconclusive.
 //! * Margin: the smallest of the rise-time and settling-time margins, in s.
 
-use super::result::{CheckResult, Reason, Segment, Verdict};
-use super::spec::{DeadBandMode, Follow, ReactiveCurrentSpec, Sequence, TimeFrom};
+use super::{Check, CheckKind, Context, FigureKind, Overlay, RuleDrawing, Unit};
+use crate::analysis::events::DisturbanceKind;
+use crate::analysis::Quantity;
+use crate::rules::result::{CheckResult, Reason, Segment, Verdict};
+use schemars::JsonSchema;
+use serde::{Deserialize, Serialize};
+
+#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum Sequence {
+    #[default]
+    Positive,
+    Negative,
+}
+
+#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum DeadBandMode {
+    /// Required extra current `k·(|ΔV| − db)` outside the dead band.
+    #[default]
+    Offset,
+    /// Required extra current `k·|ΔV|` once outside the dead band.
+    Full,
+}
+
+#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum Follow {
+    /// One required value from the settled fault voltage.
+    #[default]
+    Settled,
+    /// The requirement follows the voltage sample by sample.
+    Instantaneous,
+}
+
+/// The instant rise and settling times count from.
+#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum TimeFrom {
+    /// The disturbance start (the phasor crossing of the detection threshold).
+    #[default]
+    Start,
+    /// The waveform inception (where the waveform left the pre-fault
+    /// sinusoid); the start where the recording has no waveforms.
+    Inception,
+}
+
+#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum AppliesTo {
+    /// Sags and swells (a swell asks for inductive current).
+    #[default]
+    Both,
+    Undervoltage,
+    Overvoltage,
+}
+
+#[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct ReactiveCurrentSpec {
+    pub id: String,
+    #[serde(default)]
+    pub sequence: Sequence,
+    /// Gain k: extra reactive current, pu, per pu of voltage deviation.
+    pub gain: f64,
+    /// Dead band of the voltage deviation, pu.
+    #[serde(default)]
+    pub dead_band_pu: f64,
+    #[serde(default)]
+    pub dead_band_mode: DeadBandMode,
+    /// From disturbance start to 90 % of the required current, s.
+    pub rise_time_s: f64,
+    /// From disturbance start until inside the tolerance band for good, s.
+    pub settling_time_s: f64,
+    /// `[lo, hi]` around the required extra current, pu, in the direction of
+    /// the requirement (lo ≤ 0 ≤ hi: lo less, hi more current than required).
+    pub tolerance_pu: [f64; 2],
+    /// Limit of the total reactive current `|Iq0 + ΔIq|`, pu.
+    #[serde(default = "d_limit")]
+    pub limit_pu: f64,
+    #[serde(default)]
+    pub follow: Follow,
+    #[serde(default)]
+    pub applies_to: AppliesTo,
+    /// A move of the voltage by more than this that then holds for the
+    /// settling time starts a new quasi-steady segment with its own
+    /// requirement, pu (default 0.05).
+    #[serde(default = "d_segment")]
+    pub segment_step_pu: f64,
+    /// Where rise and settling times count from (default `start`).
+    #[serde(default)]
+    pub time_from: TimeFrom,
+}
+
+fn d_limit() -> f64 {
+    1.0
+}
+fn d_segment() -> f64 {
+    0.05
+}
+
+impl Check for ReactiveCurrentSpec {
+    fn id(&self) -> &str {
+        &self.id
+    }
+    fn kind(&self) -> CheckKind {
+        CheckKind::ReactiveCurrent
+    }
+    fn unit(&self) -> Unit {
+        Unit::S
+    }
+    fn problems(&self, out: &mut Vec<(&'static str, String)>) {
+        let r = self;
+        let mut p = |key: &'static str, message: String| out.push((key, message));
+        if !(r.gain.is_finite() && r.gain > 0.0 && r.gain <= 20.0) {
+            p("gain", format!("gain {} must be in (0, 20]", r.gain));
+        }
+        if !(r.dead_band_pu >= 0.0 && r.dead_band_pu < 0.5) {
+            p(
+                "dead_band_pu",
+                format!("dead_band_pu {} must be in [0, 0.5)", r.dead_band_pu),
+            );
+        }
+        if !(r.rise_time_s > 0.0 && r.rise_time_s <= 10.0) {
+            p(
+                "rise_time_s",
+                format!("rise_time_s {} must be in (0, 10] s", r.rise_time_s),
+            );
+        }
+        if !(r.settling_time_s > 0.0 && r.settling_time_s <= 10.0) {
+            p(
+                "settling_time_s",
+                format!("settling_time_s {} must be in (0, 10] s", r.settling_time_s),
+            );
+        } else if r.settling_time_s < r.rise_time_s {
+            p(
+                "settling_time_s",
+                format!(
+                    "settling_time_s {} is shorter than rise_time_s {}",
+                    r.settling_time_s, r.rise_time_s
+                ),
+            );
+        }
+        let [lo, hi] = r.tolerance_pu;
+        if !(lo <= 0.0 && hi >= 0.0 && lo.is_finite() && hi.is_finite()) || lo == hi {
+            p(
+                "tolerance_pu",
+                format!("tolerance_pu [{lo}, {hi}] must satisfy lo ≤ 0 ≤ hi with lo < hi"),
+            );
+        }
+        if !(r.segment_step_pu > 0.0 && r.segment_step_pu < 1.0) {
+            p(
+                "segment_step_pu",
+                format!("segment_step_pu {} must be in (0, 1)", r.segment_step_pu),
+            );
+        }
+        if !(r.limit_pu > 0.0 && r.limit_pu <= 3.0) {
+            p(
+                "limit_pu",
+                format!("limit_pu {} must be in (0, 3]", r.limit_pu),
+            );
+        }
+    }
+    fn concerns(&self, kind: DisturbanceKind) -> bool {
+        match self.applies_to {
+            AppliesTo::Both => true,
+            AppliesTo::Undervoltage => kind == DisturbanceKind::Undervoltage,
+            AppliesTo::Overvoltage => kind == DisturbanceKind::Overvoltage,
+        }
+    }
+    fn evaluate(&self, ctx: &Context<'_>, r: CheckResult) -> CheckResult {
+        evaluate_at(self, ctx, r)
+    }
+    fn extent_s(&self) -> f64 {
+        0.0
+    }
+    fn summary(&self) -> String {
+        format!(
+            "{:?}-sequence reactive current, k = {}, dead band {} pu ({:?}), rise {} s, settling {} s",
+            self.sequence,
+            self.gain,
+            self.dead_band_pu,
+            self.dead_band_mode,
+            self.rise_time_s,
+            self.settling_time_s
+        )
+        .to_lowercase()
+    }
+    fn figure(&self) -> FigureKind {
+        FigureKind::ReactiveCurrent {
+            negative: self.sequence == Sequence::Negative,
+        }
+    }
+    fn overlay(&self, r: &CheckResult, ctx: &Context<'_>) -> Option<Overlay> {
+        overlay(self, r, ctx)
+    }
+    fn drawing(&self, rule_set_id: &str) -> Option<RuleDrawing> {
+        Some(drawing(self, rule_set_id))
+    }
+}
+
+/// The check of one disturbance: the references and series of the judged
+/// sequence, then [`evaluate_input`].
+fn evaluate_at(rc: &ReactiveCurrentSpec, p: &Context<'_>, r: CheckResult) -> CheckResult {
+    let series = p.series;
+    let d = p.d;
+    let (vq, iq) = match rc.sequence {
+        Sequence::Positive => (Quantity::V1, Quantity::Iq),
+        Sequence::Negative => (Quantity::V2, Quantity::Iq2),
+    };
+    let (Some(vs), Some(is)) = (series.get(vq), series.get(iq)) else {
+        return r.decide(
+            Verdict::Inconclusive,
+            Reason::MissingChannel,
+            format!(
+                "the recording has no {} reactive current (currents missing{})",
+                if rc.sequence == Sequence::Negative {
+                    "negative-sequence"
+                } else {
+                    "positive-sequence"
+                },
+                if rc.sequence == Sequence::Negative {
+                    ", or an RMS-level recording without phases"
+                } else {
+                    ""
+                }
+            ),
+        );
+    };
+    let Some(pre) = &d.prefault else {
+        return r.decide(
+            Verdict::Inconclusive,
+            Reason::NoPrefaultReference,
+            format!(
+                "no pre-fault reference: {}",
+                d.prefault_problem
+                    .clone()
+                    .unwrap_or_else(|| "too little data before the disturbance".into())
+            ),
+        );
+    };
+    let (v_pre, iq_pre) = match rc.sequence {
+        Sequence::Positive => (pre.v1_pu, pre.iq_pu.unwrap_or(f64::NAN)),
+        Sequence::Negative => (
+            pre.v2_pu.unwrap_or(0.0),
+            pre.iq2_pu.filter(|x| x.is_finite()).unwrap_or(0.0),
+        ),
+    };
+    if !iq_pre.is_finite() {
+        return r.decide(
+            Verdict::Inconclusive,
+            Reason::NoPrefaultReference,
+            "no pre-fault reactive current reference",
+        );
+    }
+    let inp = ReactiveInput {
+        t: &series.t,
+        v: vs,
+        iq: is,
+        start_s: d.start_s,
+        inception_s: d.inception_s,
+        end_s: d.end_s.unwrap_or(p.rec_end),
+        ended: d.end_s.is_some(),
+        v_pre,
+        iq_pre,
+        trip_s: p.trip_in,
+        cycle_s: p.cycle,
+    };
+    evaluate_input(rc, &inp, r)
+}
 
 /// Inputs of one reactive-current evaluation.
 pub struct ReactiveInput<'a> {
@@ -120,7 +388,7 @@ pub fn segment_starts(
     out
 }
 
-pub fn evaluate(
+pub fn evaluate_input(
     spec: &ReactiveCurrentSpec,
     inp: &ReactiveInput<'_>,
     mut r: CheckResult,
@@ -539,4 +807,126 @@ pub fn evaluate(
             spec.settling_time_s * 1e3
         ),
     )
+}
+
+/// What a result shows on its sequence's figure: the required total
+/// current (segments, or following the voltage), the tolerance bands from
+/// each segment's settling time to one cycle before its end, the 90 % point
+/// and the rise and settling instants (all from the result's own values).
+fn overlay(spec: &ReactiveCurrentSpec, c: &CheckResult, ctx: &Context<'_>) -> Option<Overlay> {
+    let d = ctx.d;
+    let (req, iq_pre) = (c.required_pu?, c.reference_pu?);
+    let pre = d.prefault?;
+    let v_pre = match spec.sequence {
+        Sequence::Positive => pre.v1_pu,
+        Sequence::Negative => pre.v2_pu.unwrap_or(0.0),
+    };
+    let end = d.end_s.unwrap_or(ctx.rec_end);
+    let t0 = c.time_from_s.unwrap_or(d.start_s);
+    let [tlo, thi] = spec.tolerance_pu;
+    // Quasi-steady segments: (from, to, requirement, band from).
+    let segs: Vec<(f64, f64, f64, f64)> = if c.segments.is_empty() {
+        vec![(t0, end, req, t0 + spec.settling_time_s)]
+    } else {
+        c.segments
+            .iter()
+            .enumerate()
+            .map(|(j, g)| {
+                let clock = if j == 0 { t0 } else { g.start_s };
+                (
+                    g.start_s,
+                    g.end_s,
+                    g.required_pu,
+                    clock + spec.settling_time_s,
+                )
+            })
+            .collect()
+    };
+    let required: Vec<(f64, f64)> = match spec.follow {
+        Follow::Settled => segs
+            .iter()
+            .flat_map(|(a, b, r, _)| [(*a, iq_pre + r), (*b, iq_pre + r)])
+            .collect(),
+        Follow::Instantaneous => {
+            let vq = match spec.sequence {
+                Sequence::Positive => Quantity::V1,
+                Sequence::Negative => Quantity::V2,
+            };
+            let (t, v) = (&ctx.series.t, ctx.series.get(vq)?);
+            let a = t.partition_point(|x| *x < d.start_s);
+            let b = t.partition_point(|x| *x <= end);
+            (a..b)
+                .map(|k| {
+                    (
+                        t[k],
+                        iq_pre + limited(spec, iq_pre, required(spec, v[k] - v_pre)),
+                    )
+                })
+                .collect()
+        }
+    };
+    let bands = segs
+        .iter()
+        .filter_map(|(_, b, r, from)| {
+            let until = b - ctx.cycle;
+            (until > *from).then(|| {
+                let (l, h) = if *r >= 0.0 {
+                    (r + tlo, r + thi)
+                } else {
+                    (r - thi, r - tlo)
+                };
+                (*from, until, iq_pre + l, iq_pre + h)
+            })
+        })
+        .collect();
+    Some(Overlay::Reactive {
+        negative: spec.sequence == Sequence::Negative,
+        required,
+        bands,
+        rise: match (c.at_s, c.measured) {
+            (Some(at), Some(rise)) => Some((at, iq_pre + 0.9 * segs[0].2, rise)),
+            _ => None,
+        },
+        rise_limit_at: t0 + spec.rise_time_s,
+        rise_limit_s: spec.rise_time_s,
+        settled_at: c.settling_time_s.map(|st| (t0 + st, st)),
+    })
+}
+
+/// The characteristic `rules plot` draws: the required extra current
+/// against the voltage deviation −1..0.5 pu (pre-fault current 0), with the
+/// tolerance band.
+fn drawing(rc: &ReactiveCurrentSpec, rule_set_id: &str) -> RuleDrawing {
+    let n = 600;
+    let (a, b) = (-1.0, 0.5);
+    let curve: Vec<(f64, f64)> = (0..=n)
+        .map(|k| {
+            let dv = a + (b - a) * k as f64 / n as f64;
+            (dv, limited(rc, 0.0, required(rc, dv)))
+        })
+        .collect();
+    let [lo, hi] = rc.tolerance_pu;
+    let band_hi: Vec<(f64, f64)> = curve
+        .iter()
+        .map(|(x, y)| (*x, if *y >= 0.0 { y + hi } else { y - hi }))
+        .collect();
+    let band_lo: Vec<(f64, f64)> = curve
+        .iter()
+        .map(|(x, y)| (*x, if *y >= 0.0 { y + lo } else { y - lo }))
+        .collect();
+    let mut band = band_hi;
+    band.extend(band_lo.iter().rev());
+    RuleDrawing::Characteristic {
+        title: format!(
+            "{} – {}: k = {}, dead band {} pu ({:?}), limit {} pu",
+            rule_set_id, rc.id, rc.gain, rc.dead_band_pu, rc.dead_band_mode, rc.limit_pu
+        )
+        .replace("Offset", "offset")
+        .replace("Full", "full"),
+        curve,
+        band,
+        dead_band_pu: rc.dead_band_pu,
+        negative: rc.sequence == Sequence::Negative,
+        tolerance: rc.tolerance_pu,
+    }
 }

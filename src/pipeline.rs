@@ -1,0 +1,378 @@
+//! The test pipeline: one test from its recording to its evidence
+//! (import → analysis → evaluation → figures), and a whole job in parallel.
+//! Commands call this; reporters render what it returns.
+
+use crate::analysis::{analyse, AnalysisSettings, POINTS_PER_CYCLE};
+use crate::cli::CAUTION;
+use crate::error::{InputError, InputErrors};
+use crate::import::{self, ImportOptions};
+use crate::model::{Ratings, RecordingKind};
+use crate::plan::ResolvedTest;
+use crate::report;
+use crate::report::figures::FigureInput;
+use crate::report::html::RenderedFigure;
+use crate::report::FigureSet;
+use crate::rules::engine;
+use crate::rules::result::{
+    FileRef, HashedFile, RecordingResult, Results, TestResult, Tool, Verdict,
+};
+use crate::rules::LoadedRules;
+use anyhow::Context;
+use rayon::prelude::*;
+use std::path::{Path, PathBuf};
+
+/// What a run checks, after the inputs were read and validated.
+pub struct Job {
+    pub plan: Option<(PathBuf, String)>,
+    pub unit_name: Option<String>,
+    /// The unit's ratings; `None` when every channel is in per unit.
+    pub ratings: Option<Ratings>,
+    /// Nominal frequency; `None`: each recording's own (COMTRADE `lf`).
+    pub frequency_hz: Option<f64>,
+    pub rules: Vec<LoadedRules>,
+    pub tests: Vec<ResolvedTest>,
+    pub options: ImportOptions,
+}
+
+/// What one test gives: its result and its figures.
+pub struct Evidence {
+    pub result: TestResult,
+    pub figures: Vec<RenderedFigure>,
+}
+
+/// A test that could not be evaluated: its input, or writing its figures.
+pub enum TestError {
+    Input(InputError),
+    Output(anyhow::Error),
+}
+
+impl From<InputError> for TestError {
+    fn from(e: InputError) -> Self {
+        TestError::Input(e)
+    }
+}
+
+pub fn file_ref(r: &LoadedRules) -> FileRef {
+    FileRef {
+        id: Some(r.rules.id.clone()),
+        path: r.path.display().to_string(),
+        sha256: r.sha256.clone(),
+        title: Some(r.rules.title.clone()),
+        source: Some(r.rules.source.clone()),
+    }
+}
+
+/// Keeps letters, digits, '-' and '_' of a test id for file names.
+fn file_safe(id: &str) -> String {
+    let s: String = id
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
+                c
+            } else {
+                '_'
+            }
+        })
+        .take(60)
+        .collect();
+    if s.is_empty() {
+        "test".into()
+    } else {
+        s
+    }
+}
+
+/// Evaluates one test; with `plots`, also draws its figures into that directory.
+pub fn run_test(
+    test: &ResolvedTest,
+    index: usize,
+    rules: &LoadedRules,
+    job: &Job,
+    opts: &ImportOptions,
+    plots: Option<&Path>,
+) -> Result<Evidence, TestError> {
+    let source = import::open(&test.file, &test.map, opts)?;
+    let frequency_hz = job
+        .frequency_hz
+        .or(source.info().line_frequency_hz)
+        .ok_or_else(|| {
+            InputError::new(&test.file, "the nominal frequency is not known")
+                .hint("give --frequency 50 or 60 (the recording states no line frequency)")
+        })?;
+    let settings = AnalysisSettings {
+        ratings: job.ratings.map(|mut r| {
+            r.frequency_hz = frequency_hz;
+            r
+        }),
+        frequency_hz,
+        points_per_cycle: POINTS_PER_CYCLE,
+        phase_order: test.map.phase_order.unwrap_or_default(),
+    };
+    let analysed = analyse(source, &settings)?;
+    let det = engine::detection_settings(&rules.rules, frequency_hz);
+    let outcome = engine::evaluate(&analysed.series, &rules.rules, &det, test.expect.as_ref());
+    let figures = match plots {
+        Some(dir) => draw(test, index, rules, &analysed.series, &det, &outcome, dir)
+            .map_err(TestError::Output)?,
+        None => Vec::new(),
+    };
+    let mut notes = analysed.info.notes.clone();
+    if let (Some(f), Some(lf)) = (job.frequency_hz, analysed.info.line_frequency_hz) {
+        if (f - lf).abs() > 1e-6 {
+            notes.push(format!(
+                "the nominal frequency {f} Hz is used; the recording states a line frequency of {lf} Hz"
+            ));
+        }
+    }
+    notes.extend(outcome.notes.iter().cloned());
+    let result = test_result(test, rules, &analysed.info, outcome, notes)?;
+    Ok(Evidence { result, figures })
+}
+
+/// Draws the figures of one test into `dir` (SVG and PNG).
+fn draw(
+    test: &ResolvedTest,
+    index: usize,
+    rules: &LoadedRules,
+    series: &crate::analysis::Series,
+    det: &crate::analysis::events::DetectionSettings,
+    outcome: &engine::Outcome,
+    dir: &Path,
+) -> anyhow::Result<Vec<RenderedFigure>> {
+    let mut figures = Vec::new();
+    for fig in figures_of(&test.id, series, &rules.rules, det, outcome) {
+        let stem = format!("{:03}-{}-{}", index + 1, file_safe(&test.id), fig.quantity);
+        let (svg, _) = report::plot::svg(&fig.spec)
+            .map_err(|e| anyhow::anyhow!("drawing figure {stem}: {e}"))?;
+        let svg_path = dir.join(format!("{stem}.svg"));
+        std::fs::write(&svg_path, &svg)
+            .with_context(|| format!("writing figure {}", svg_path.display()))?;
+        let png_path = dir.join(format!("{stem}.png"));
+        report::plot::png(&fig.spec, &png_path)
+            .map_err(|e| anyhow::anyhow!("writing figure {}: {e}", png_path.display()))?;
+        figures.push(RenderedFigure {
+            quantity: fig.quantity.to_string(),
+            title: fig.spec.title.clone(),
+            svg,
+            files: vec![format!("{stem}.svg"), format!("{stem}.png")],
+        });
+    }
+    Ok(figures)
+}
+
+/// The figures of one test from its outcome: each check's overlay and the
+/// figure its result belongs to.
+pub fn figures_of(
+    test_id: &str,
+    series: &crate::analysis::Series,
+    rules: &crate::rules::spec::RuleSet,
+    det: &crate::analysis::events::DetectionSettings,
+    outcome: &engine::Outcome,
+) -> Vec<report::figures::Figure> {
+    let Some(applicable) = outcome.applicable.as_deref() else {
+        return Vec::new();
+    };
+    let overlays = engine::overlays(series, rules, det, outcome);
+    let results = outcome
+        .checks
+        .iter()
+        .filter_map(|c| {
+            let spec = rules.checks.iter().find(|s| s.id() == c.id)?;
+            Some((c, spec.check().figure()))
+        })
+        .collect();
+    report::figures::figures(&FigureInput {
+        test_id,
+        series,
+        applicable,
+        applicable_name: rules.applicable_voltage.name().replace('_', " "),
+        disturbances: &outcome.disturbances,
+        trip: &outcome.trip,
+        results,
+        overlays: &overlays,
+        extent_s: rules
+            .checks
+            .iter()
+            .map(|c| c.check().extent_s())
+            .fold(0.0, f64::max),
+    })
+}
+
+/// The neutral result of one test.
+fn test_result(
+    test: &ResolvedTest,
+    rules: &LoadedRules,
+    info: &crate::model::RecordingInfo,
+    outcome: engine::Outcome,
+    notes: Vec<String>,
+) -> Result<TestResult, InputError> {
+    // The digest of the bytes the importer read, not of a second reading.
+    let sha256 = info
+        .files
+        .first()
+        .map(|f| f.1.clone())
+        .ok_or_else(|| InputError::new(&test.file, "the recording's digest is missing"))?;
+    Ok(TestResult {
+        id: test.id.clone(),
+        recording: RecordingResult {
+            path: test.file.display().to_string(),
+            sha256,
+            sample_rate_hz: info.sample_rate_hz,
+            duration_s: info.duration_s,
+            format: Some(info.format.clone()),
+            kind: Some(
+                match info.kind {
+                    RecordingKind::Waveform => "waveform",
+                    RecordingKind::RmsLevel => "rms_level",
+                }
+                .into(),
+            ),
+            samples: Some(info.samples),
+            header: info.header.clone(),
+            files: info
+                .files
+                .iter()
+                .map(|(path, sha256)| HashedFile {
+                    path: path.clone(),
+                    sha256: sha256.clone(),
+                })
+                .collect(),
+            channels: info
+                .channels
+                .iter()
+                .map(|c| format!("{} ← {} ({})", c.key.name(), c.source, c.unit))
+                .collect(),
+        },
+        verdict: outcome.verdict,
+        disturbances: outcome.disturbances.iter().map(Into::into).collect(),
+        trip: (&outcome.trip).into(),
+        checks: outcome.checks,
+        rules: (test.rules != 0).then(|| file_ref(rules)),
+        parameters: rules
+            .parameters
+            .iter()
+            .map(|p| (p.name.clone(), p.value))
+            .collect(),
+        notes,
+    })
+}
+
+/// What a whole run gives.
+pub struct Run {
+    pub results: Results,
+    /// Figures of each test, by test id.
+    pub figures: FigureSet,
+}
+
+/// Runs every test of the job in parallel; all input errors are collected.
+/// With `plots`, figures are drawn into that directory and returned per test.
+pub fn run_job(
+    job: &Job,
+    jobs: usize,
+    progress: bool,
+    plots: Option<&Path>,
+) -> anyhow::Result<Run> {
+    let mut opts = job.options;
+    if job.tests.len() > 1 {
+        opts.threads = 1; // files in parallel, one parsing thread each
+    }
+    let bar = if progress {
+        indicatif::ProgressBar::new(job.tests.len() as u64)
+    } else {
+        indicatif::ProgressBar::hidden()
+    };
+    bar.set_style(
+        indicatif::ProgressStyle::with_template("{bar:40} {pos}/{len} tests {msg}")
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+    );
+    let work = || {
+        job.tests
+            .par_iter()
+            .enumerate()
+            .map(|(k, t)| {
+                let r = run_test(t, k, &job.rules[t.rules], job, &opts, plots);
+                bar.inc(1);
+                r
+            })
+            .collect::<Vec<_>>()
+    };
+    let outcomes = if jobs > 0 {
+        match rayon::ThreadPoolBuilder::new().num_threads(jobs).build() {
+            Ok(pool) => pool.install(work),
+            Err(_) => work(),
+        }
+    } else {
+        work()
+    };
+    bar.finish_and_clear();
+    let mut tests = Vec::new();
+    let mut errs = Vec::new();
+    let mut figures = FigureSet::new();
+    for o in outcomes {
+        match o {
+            Ok(e) => {
+                figures.insert(e.result.id.clone(), e.figures);
+                tests.push(e.result);
+            }
+            Err(TestError::Input(e)) => errs.push(e),
+            Err(TestError::Output(e)) => return Err(e),
+        }
+    }
+    if !errs.is_empty() {
+        return Err(InputErrors(errs).into());
+    }
+    let verdict = Verdict::combine(tests.iter().map(|t| t.verdict));
+    let results = Results {
+        schema_version: 1,
+        tool: Tool {
+            name: "holdfast".into(),
+            version: env!("CARGO_PKG_VERSION").into(),
+        },
+        plan: job.plan.as_ref().map(|(p, sha)| FileRef {
+            id: None,
+            path: p.display().to_string(),
+            sha256: sha.clone(),
+            title: None,
+            source: None,
+        }),
+        rules: file_ref(&job.rules[0]),
+        verdict,
+        tests,
+        unit: job.unit_name.clone(),
+        generated_utc: Some(chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true)),
+        command_line: Some(command_line()),
+        caution: Some(CAUTION.into()),
+    };
+    Ok(Run { results, figures })
+}
+
+fn command_line() -> String {
+    std::env::args()
+        .map(|a| {
+            if a.is_empty() || a.contains(|c: char| c.is_whitespace() || "'\"$`\\".contains(c)) {
+                format!("'{}'", a.replace('\'', "'\\''"))
+            } else {
+                a
+            }
+        })
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
+/// Every file a job reads: plan, rule sets, recordings and their COMTRADE
+/// data files (an `--out` that holds one is refused).
+pub fn inputs_of(job: &Job) -> Vec<PathBuf> {
+    let mut v: Vec<PathBuf> = job.plan.iter().map(|(p, _)| p.clone()).collect();
+    v.extend(job.rules.iter().map(|r| r.path.clone()));
+    for t in &job.tests {
+        v.push(t.file.clone());
+        if t.file
+            .extension()
+            .is_some_and(|e| e.eq_ignore_ascii_case("cfg"))
+        {
+            v.push(t.file.with_extension("dat"));
+            v.push(t.file.with_extension("DAT"));
+        }
+    }
+    v
+}
