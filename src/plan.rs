@@ -377,3 +377,13 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
         tests,
     })
 }
+
+/// The test-plan schema.
+pub fn plan_schema() -> serde_json::Value {
+    let mut v =
+        serde_json::to_value(schemars::schema_for!(Plan)).unwrap_or(serde_json::Value::Null);
+    if let serde_json::Value::Object(m) = &mut v {
+        m.insert("title".into(), serde_json::json!("holdfast test plan"));
+    }
+    v
+}

@@ -18,7 +18,7 @@ pub fn run(cli: Cli) -> anyhow::Result<u8> {
         Command::Plan(args) => match args.command {
             crate::cli::PlanCommand::Schema => {
                 use std::io::Write;
-                let text = serde_json::to_string_pretty(&crate::rules::schema::plan_schema())?;
+                let text = serde_json::to_string_pretty(&crate::plan::plan_schema())?;
                 writeln!(std::io::stdout().lock(), "{text}")?;
                 Ok(0)
             }

@@ -73,7 +73,7 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
             let pack = crate::report::pack::PackWriter::begin(out, std::slice::from_ref(file))?;
             let mut written = Vec::new();
             let r = &loaded.rules;
-            let drawings: Vec<(String, crate::rules::checks::RuleDrawing)> = r
+            let drawings: Vec<(String, crate::rules::check::RuleDrawing)> = r
                 .checks
                 .iter()
                 .filter_map(|c| Some((c.id().to_string(), c.check().drawing(&r.id)?)))

@@ -7,7 +7,8 @@
 use super::plot::{self, FigureSpec, Mark, Shade, Trace, VLine};
 use crate::analysis::events::{Balance, Disturbance, TripInfo, TripMethod};
 use crate::analysis::{Quantity, Series};
-use crate::rules::checks::{FigureKind, Overlay, RuleDrawing, Unit};
+use crate::rules::check::{FigureKind, Overlay, RuleDrawing};
+use crate::rules::registry::Unit;
 use crate::rules::result::CheckResult;
 
 pub struct FigureInput<'a> {

@@ -8,7 +8,7 @@ pub mod plot;
 pub mod summary_csv;
 pub mod table;
 
-use crate::rules::checks::Unit;
+use crate::rules::registry::Unit;
 use crate::rules::result::Results;
 use anyhow::Context;
 

@@ -5,7 +5,7 @@
 //! magnitude change is a common cause); a trip during a disturbance follows
 //! the zone checks that judged it.
 
-use super::checks::{CheckKind, Unit};
+use super::registry::{CheckKind, Unit};
 use super::result::{CheckResult, Reason, Verdict};
 use crate::analysis::events::{Disturbance, TripInfo, TripMethod};
 

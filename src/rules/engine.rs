@@ -3,9 +3,10 @@
 //! `connection` check over the whole recording. The engine knows no check
 //! type: it asks each through the [`Check`] trait.
 
-use super::checks::{Check, CheckKind, Context, Overlay, Unit};
+use super::check::{Check, Context, Overlay};
 use super::connection::{self, ConnectionInput};
 use super::realisation::{self, Expect};
+use super::registry::{CheckKind, Unit};
 use super::result::{CheckResult, Reason, Verdict};
 use super::spec::RuleSet;
 use crate::analysis::events::{

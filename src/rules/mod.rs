@@ -9,6 +9,7 @@
 //! * [`engine`] – applies a rule set to one recording;
 //! * [`result`] – the neutral result type every reporter renders.
 
+pub mod check;
 pub mod checks;
 pub mod connection;
 pub mod engine;
@@ -16,6 +17,7 @@ pub mod library;
 pub mod locate;
 pub mod params;
 pub mod realisation;
+pub mod registry;
 pub mod result;
 pub mod schema;
 pub mod spec;

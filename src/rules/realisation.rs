@@ -6,7 +6,7 @@
 //! duration runs from inception to clearance on waveforms (disturbance end
 //! minus start at RMS level, where no waveform shows the edges).
 
-use super::checks::{CheckKind, Unit};
+use super::registry::{CheckKind, Unit};
 use super::result::{CheckResult, Reason, Verdict};
 use crate::analysis::events::{Balance, Disturbance};
 use schemars::JsonSchema;

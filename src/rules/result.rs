@@ -2,7 +2,7 @@
 //! Field names are the `results.json` schema version 1 (interfaces.md);
 //! additions are optional fields only.
 
-pub use super::checks::{CheckKind, Unit};
+pub use super::registry::{CheckKind, Unit};
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 use std::borrow::Cow;

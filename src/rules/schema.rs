@@ -1,7 +1,7 @@
-//! JSON Schemas of the rule-set and plan formats, for editors (YAML language
-//! servers) and for validating files with general-purpose tools. Generated
-//! from the serde types; every number may also be written as `"$name"` of a
-//! rule-set parameter.
+//! The JSON Schema of the rule-set format (the plan's is in
+//! [`crate::plan`]), for editors (YAML language servers) and for validating
+//! files with general-purpose tools. Generated from the serde types; every
+//! number may also be written as `"$name"` of a rule-set parameter.
 
 use serde_json::{json, Value};
 
@@ -40,16 +40,6 @@ pub fn rules_schema() -> Value {
     allow_refs(&mut v);
     if let Value::Object(m) = &mut v {
         m.insert("title".into(), json!("holdfast rule set"));
-    }
-    v
-}
-
-/// The test-plan schema.
-pub fn plan_schema() -> Value {
-    let mut v =
-        serde_json::to_value(schemars::schema_for!(crate::plan::Plan)).unwrap_or(Value::Null);
-    if let Value::Object(m) = &mut v {
-        m.insert("title".into(), json!("holdfast test plan"));
     }
     v
 }

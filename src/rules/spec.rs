@@ -5,12 +5,14 @@
 //! [`RuleSet::problems`], all of them in one run.
 
 pub use super::checks::active_power_recovery::ActivePowerRecoverySpec;
-pub use super::checks::duration_table::{DurationTableSpec, Side, TableMode, TableRow};
-pub use super::checks::envelope::{Bound, Cessation, EnvelopeSpec};
+pub use super::checks::duration_table::DurationTableSpec;
+pub use super::checks::envelope::EnvelopeSpec;
 pub use super::checks::reactive_current::{
     AppliesTo, DeadBandMode, Follow, ReactiveCurrentSpec, Sequence, TimeFrom,
 };
-pub use super::checks::{CheckKind, CheckSpec, Unit};
+pub use super::checks::CheckSpec;
+pub use super::registry::{CheckKind, Unit};
+pub use super::zone::{Bound, Cessation, Side, TableMode, TableRow};
 use crate::analysis::events::ApplicableVoltage;
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};

@@ -8,11 +8,58 @@
 //! `d_i − r_i(t)` over the rows the voltage is beyond (continuous mode) or
 //! has been beyond (cumulative), in s, inside while > 0.
 
-use super::checks::duration_table::{Side, TableMode, TableRow};
-use super::checks::envelope::{Bound, Cessation};
-use super::checks::{Context, Overlay, Unit};
+use super::check::{Context, Overlay};
+use super::registry::Unit;
 use super::result::{CheckResult, Reason, Verdict};
 use crate::analysis::events::TripMethod;
+use schemars::JsonSchema;
+use serde::{Deserialize, Serialize};
+
+#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq)]
+#[serde(rename_all = "snake_case")]
+pub enum Bound {
+    /// Inside while V ≥ C(t − t0) (undervoltage ride-through).
+    Lower,
+    /// Inside while V ≤ C(t − t0) (overvoltage ride-through).
+    Upper,
+}
+
+/// What to do when the unit stops injecting current and resumes (momentary cessation).
+#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum Cessation {
+    /// Reported in the detail, not judged.
+    #[default]
+    Allowed,
+    /// Momentary cessation inside the ride-through zone fails the check.
+    Forbidden,
+}
+
+#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq)]
+#[serde(rename_all = "snake_case")]
+pub enum Side {
+    Below,
+    Above,
+}
+
+#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum TableMode {
+    /// Time beyond a row's level counts from the last time the voltage went beyond it.
+    #[default]
+    Continuous,
+    /// Time beyond a row's level adds up from the disturbance start.
+    Cumulative,
+}
+
+#[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct TableRow {
+    /// Level, pu: below it (side below) or above it (side above).
+    pub beyond_pu: f64,
+    /// Longest time beyond the level the unit must ride through, s.
+    pub max_s: f64,
+}
 
 /// The boundary `C(τ)` of an envelope: linear between points, a repeated
 /// time is a vertical step (the later point holds from that time on), flat

@@ -3,9 +3,10 @@
 //! `fraction · P_pre` and then stays there for `hold_s`. The search ends
 //! where the next disturbance starts.
 
-use super::{Check, CheckKind, Context, FigureKind, Overlay, Unit};
 use crate::analysis::events::DisturbanceKind;
 use crate::analysis::Quantity;
+use crate::rules::check::{Check, Context, FigureKind, Overlay};
+use crate::rules::registry::{CheckKind, Unit};
 use crate::rules::result::{CheckResult, Reason, Verdict};
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};

@@ -3,30 +3,13 @@
 //! envelope; a table equals its staircase envelope on monotone dips
 //! ([`zone::table_boundary`], checked by a property test).
 
-use super::envelope::{Bound, Cessation};
-use super::{Check, CheckKind, Context, FigureKind, Overlay, RuleDrawing, Unit, ZoneFacts};
 use crate::analysis::events::DisturbanceKind;
+use crate::rules::check::{Check, Context, FigureKind, Overlay, RuleDrawing, ZoneFacts};
+use crate::rules::registry::{CheckKind, Unit};
 use crate::rules::result::CheckResult;
-use crate::rules::zone;
+use crate::rules::zone::{self, Bound, Cessation, Side, TableMode, TableRow};
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
-
-#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq)]
-#[serde(rename_all = "snake_case")]
-pub enum Side {
-    Below,
-    Above,
-}
-
-#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq, Default)]
-#[serde(rename_all = "snake_case")]
-pub enum TableMode {
-    /// Time beyond a row's level counts from the last time the voltage went beyond it.
-    #[default]
-    Continuous,
-    /// Time beyond a row's level adds up from the disturbance start.
-    Cumulative,
-}
 
 #[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
@@ -38,15 +21,6 @@ pub struct DurationTableSpec {
     pub mode: TableMode,
     #[serde(default)]
     pub momentary_cessation: Cessation,
-}
-
-#[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
-#[serde(deny_unknown_fields)]
-pub struct TableRow {
-    /// Level, pu: below it (side below) or above it (side above).
-    pub beyond_pu: f64,
-    /// Longest time beyond the level the unit must ride through, s.
-    pub max_s: f64,
 }
 
 impl DurationTableSpec {

@@ -1,32 +1,13 @@
 //! `envelope`: a voltage-against-time boundary of the ride-through zone
 //! (domain reference §5; verdicts, reasons and margins in docs/rules.md).
 
-use super::{Check, CheckKind, Context, FigureKind, Overlay, RuleDrawing, Unit, ZoneFacts};
 use crate::analysis::events::DisturbanceKind;
+use crate::rules::check::{Check, Context, FigureKind, Overlay, RuleDrawing, ZoneFacts};
+use crate::rules::registry::{CheckKind, Unit};
 use crate::rules::result::CheckResult;
-use crate::rules::zone;
+use crate::rules::zone::{self, Bound, Cessation};
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
-
-#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq)]
-#[serde(rename_all = "snake_case")]
-pub enum Bound {
-    /// Inside while V ≥ C(t − t0) (undervoltage ride-through).
-    Lower,
-    /// Inside while V ≤ C(t − t0) (overvoltage ride-through).
-    Upper,
-}
-
-/// What to do when the unit stops injecting current and resumes (momentary cessation).
-#[derive(Clone, Copy, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Eq, Default)]
-#[serde(rename_all = "snake_case")]
-pub enum Cessation {
-    /// Reported in the detail, not judged.
-    #[default]
-    Allowed,
-    /// Momentary cessation inside the ride-through zone fails the check.
-    Forbidden,
-}
 
 #[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]

@@ -27,9 +27,10 @@
 //!   inconclusive.
 //! * Margin: the smallest of the rise-time and settling-time margins, in s.
 
-use super::{Check, CheckKind, Context, FigureKind, Overlay, RuleDrawing, Unit};
 use crate::analysis::events::DisturbanceKind;
 use crate::analysis::Quantity;
+use crate::rules::check::{Check, Context, FigureKind, Overlay, RuleDrawing};
+use crate::rules::registry::{CheckKind, Unit};
 use crate::rules::result::{CheckResult, Reason, Segment, Verdict};
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
