@@ -1,8 +1,11 @@
 //! Command-line definitions: raw arguments become typed settings here, once.
 
+use crate::analysis::events::{default, ApplicableVoltage};
 use crate::error::UsageError;
+use crate::import::comtrade::cfg::{DataType, Revision};
 use crate::import::{ChannelMap, ImportOptions};
 use crate::model::{ChannelKey, Connection, CurrentUnit, PhaseOrder, Ratings, VoltageUnit};
+use crate::synth::{DeadBandMode, Delimiter, SynthLayout, TimeFormat};
 use clap::{Args, Parser, Subcommand};
 use std::path::PathBuf;
 
@@ -139,7 +142,6 @@ impl RatingArgs {
             (Some(kv), Some(mva)) => Ok(Some(Ratings {
                 rated_kv: check("--rated-kv", kv)?,
                 rated_mva: check("--rated-mva", mva)?,
-                frequency_hz: self.frequency.unwrap_or(f64::NAN),
             })),
             (None, None) => Ok(None),
             (Some(_), None) => Err(UsageError("--rated-kv needs --rated-mva as well".into())),
@@ -156,15 +158,15 @@ pub struct MapArgs {
     /// are found without it.
     #[arg(long = "map", value_name = "KEY=COLUMN")]
     pub map: Vec<String>,
-    /// Unit of the voltage columns: V, kV or pu.
-    #[arg(long, value_name = "UNIT")]
-    pub voltage_unit: Option<String>,
-    /// Unit of the current columns: A, kA or pu.
-    #[arg(long, value_name = "UNIT")]
-    pub current_unit: Option<String>,
+    /// Unit of the voltage columns.
+    #[arg(long, value_enum, value_name = "UNIT")]
+    pub voltage_unit: Option<VoltageUnit>,
+    /// Unit of the current columns.
+    #[arg(long, value_enum, value_name = "UNIT")]
+    pub current_unit: Option<CurrentUnit>,
     /// phase_to_neutral (default) or phase_to_phase (va, vb, vc then hold v_ab, v_bc, v_ca).
-    #[arg(long, value_name = "CONNECTION")]
-    pub voltage_connection: Option<String>,
+    #[arg(long, value_enum, value_name = "CONNECTION")]
+    pub voltage_connection: Option<Connection>,
     /// Phase rotation of the recorded channels: abc (default) or acb (b and c are swapped
     /// for voltages and currents before the analysis).
     #[arg(long, value_enum, value_name = "ORDER")]
@@ -205,25 +207,9 @@ impl MapArgs {
             })?;
             m.keys.push((key, col.trim().to_string()));
         }
-        if let Some(u) = &self.voltage_unit {
-            m.voltage_unit = Some(
-                VoltageUnit::parse(u)
-                    .ok_or_else(|| UsageError(format!("--voltage-unit '{u}': use V, kV or pu")))?,
-            );
-        }
-        if let Some(u) = &self.current_unit {
-            m.current_unit = Some(
-                CurrentUnit::parse(u)
-                    .ok_or_else(|| UsageError(format!("--current-unit '{u}': use A, kA or pu")))?,
-            );
-        }
-        if let Some(c) = &self.voltage_connection {
-            m.connection = Some(Connection::parse(c).ok_or_else(|| {
-                UsageError(format!(
-                    "--voltage-connection '{c}': use phase_to_neutral or phase_to_phase"
-                ))
-            })?);
-        }
+        m.voltage_unit = self.voltage_unit;
+        m.current_unit = self.current_unit;
+        m.connection = self.voltage_connection;
         m.phase_order = self.phase_order;
         if let Some(e) = &self.encoding {
             m.encoding = Some(crate::import::encoding_for(e).ok_or_else(|| {
@@ -263,15 +249,19 @@ pub struct InspectArgs {
     pub ratings: RatingArgs,
     #[command(flatten)]
     pub map: MapArgs,
-    /// Voltage used to find disturbances: positive_sequence, min_phase_to_phase,
-    /// min_phase_to_neutral, max_phase_to_phase, max_phase_to_neutral.
-    #[arg(long, default_value = "positive_sequence", value_name = "VOLTAGE")]
-    pub applicable: String,
+    /// Voltage used to find disturbances.
+    #[arg(
+        long,
+        value_enum,
+        default_value = "positive_sequence",
+        value_name = "VOLTAGE"
+    )]
+    pub applicable: ApplicableVoltage,
     /// A disturbance starts below this voltage, pu.
-    #[arg(long, default_value_t = 0.90, value_name = "PU")]
+    #[arg(long, default_value_t = default::BELOW_PU, value_name = "PU")]
     pub below_pu: f64,
     /// A disturbance starts above this voltage, pu.
-    #[arg(long, default_value_t = 1.10, value_name = "PU")]
+    #[arg(long, default_value_t = default::ABOVE_PU, value_name = "PU")]
     pub above_pu: f64,
     /// Print JSON instead of text.
     #[arg(long)]
@@ -284,12 +274,18 @@ pub struct SynthArgs {
     /// Output file: .csv, or COMTRADE .cfg (with .dat beside it) or .cff.
     #[arg(long, short, value_name = "FILE")]
     pub out: PathBuf,
-    /// COMTRADE data type: ascii, binary, binary32 or float32.
-    #[arg(long, default_value = "binary", value_name = "TYPE")]
-    pub comtrade_type: String,
-    /// COMTRADE revision: 1991, 1999 or 2013.
-    #[arg(long, default_value = "2013", value_name = "YEAR")]
-    pub revision: String,
+    /// COMTRADE data type.
+    #[arg(
+        long,
+        value_enum,
+        ignore_case = true,
+        default_value = "binary",
+        value_name = "TYPE"
+    )]
+    pub comtrade_type: DataType,
+    /// COMTRADE revision.
+    #[arg(long, value_enum, default_value = "2013", value_name = "YEAR")]
+    pub revision: Revision,
     /// Rated line-to-line voltage, kV.
     #[arg(long, default_value_t = 0.69)]
     pub rated_kv: f64,
@@ -340,8 +336,8 @@ pub struct SynthArgs {
     #[arg(long, default_value_t = 0.1)]
     pub dead_band: f64,
     /// offset: k·(|ΔV| − db); full: k·|ΔV| once outside the dead band.
-    #[arg(long, default_value = "offset")]
-    pub dead_band_mode: String,
+    #[arg(long, value_enum, default_value = "offset")]
+    pub dead_band_mode: DeadBandMode,
     /// First-order time constant of the current response, s.
     #[arg(long, default_value_t = 0.01)]
     pub iq_tau: f64,
@@ -378,26 +374,26 @@ pub struct SynthArgs {
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
     /// waveform (va..ic) or rms (v_pos, p, q).
-    #[arg(long, default_value = "waveform")]
-    pub layout: String,
-    /// Voltage unit of the file: V, kV or pu.
-    #[arg(long, default_value = "V")]
-    pub voltage_unit: String,
-    /// Current unit of the file: A, kA or pu.
-    #[arg(long, default_value = "A")]
-    pub current_unit: String,
-    /// phase_to_neutral or phase_to_phase.
-    #[arg(long, default_value = "phase_to_neutral")]
-    pub voltage_connection: String,
-    /// Field delimiter: comma, semicolon or tab.
-    #[arg(long, default_value = "comma")]
-    pub delimiter: String,
+    #[arg(long, value_enum, default_value = "waveform")]
+    pub layout: SynthLayout,
+    /// Voltage unit of the file.
+    #[arg(long, value_enum, default_value = "V")]
+    pub voltage_unit: VoltageUnit,
+    /// Current unit of the file.
+    #[arg(long, value_enum, default_value = "A")]
+    pub current_unit: CurrentUnit,
+    /// Voltage connection of the file.
+    #[arg(long, value_enum, default_value = "phase_to_neutral")]
+    pub voltage_connection: Connection,
+    /// Field delimiter.
+    #[arg(long, value_enum, default_value = "comma")]
+    pub delimiter: Delimiter,
     /// Write numbers with a decimal comma (needs semicolon or tab delimiter).
     #[arg(long)]
     pub decimal_comma: bool,
-    /// seconds or iso (ISO-8601 timestamps).
-    #[arg(long, default_value = "seconds")]
-    pub time_format: String,
+    /// Time column: seconds, or ISO-8601 timestamps.
+    #[arg(long, value_enum, default_value = "seconds")]
+    pub time_format: TimeFormat,
     /// Add a status column (1 connected, 0 tripped).
     #[arg(long)]
     pub status: bool,

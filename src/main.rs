@@ -3,6 +3,7 @@
 //! inconclusive; 2: the input could not be used.
 
 use clap::Parser;
+use holdfast::commands::ExitStatus;
 use std::process::ExitCode;
 
 fn main() -> ExitCode {
@@ -10,11 +11,15 @@ fn main() -> ExitCode {
         Ok(c) => c,
         Err(e) => {
             let _ = e.print();
-            return ExitCode::from(if e.use_stderr() { 2 } else { 0 });
+            return ExitCode::from(if e.use_stderr() {
+                ExitStatus::BAD_INPUT
+            } else {
+                ExitStatus::Success.code()
+            });
         }
     };
     match holdfast::commands::run(cli) {
-        Ok(status) => ExitCode::from(status),
+        Ok(status) => ExitCode::from(status.code()),
         Err(e) => {
             // A closed pipe (`holdfast ... | head`) is not an error.
             if e.chain().any(|c| {
@@ -28,7 +33,7 @@ fn main() -> ExitCode {
             for cause in e.chain().skip(1) {
                 eprintln!("  caused by: {}", holdfast::text::lines(&cause.to_string()));
             }
-            ExitCode::from(2)
+            ExitCode::from(ExitStatus::BAD_INPUT)
         }
     }
 }

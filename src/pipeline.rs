@@ -6,7 +6,7 @@ use crate::analysis::{analyse, AnalysisSettings, POINTS_PER_CYCLE};
 use crate::cli::CAUTION;
 use crate::error::{InputError, InputErrors};
 use crate::import::{self, ImportOptions};
-use crate::model::{Ratings, RecordingKind};
+use crate::model::Ratings;
 use crate::plan::ResolvedTest;
 use crate::report;
 use crate::report::figures::FigureInput;
@@ -100,10 +100,7 @@ pub fn run_test(
                 .hint("give --frequency 50 or 60 (the recording states no line frequency)")
         })?;
     let settings = AnalysisSettings {
-        ratings: job.ratings.map(|mut r| {
-            r.frequency_hz = frequency_hz;
-            r
-        }),
+        ratings: job.ratings,
         frequency_hz,
         points_per_cycle: POINTS_PER_CYCLE,
         phase_order: test.map.phase_order.unwrap_or_default(),
@@ -219,14 +216,8 @@ fn test_result(
             sha256,
             sample_rate_hz: info.sample_rate_hz,
             duration_s: info.duration_s,
-            format: Some(info.format.clone()),
-            kind: Some(
-                match info.kind {
-                    RecordingKind::Waveform => "waveform",
-                    RecordingKind::RmsLevel => "rms_level",
-                }
-                .into(),
-            ),
+            format: Some(info.format),
+            kind: Some(info.kind),
             samples: Some(info.samples),
             header: info.header.clone(),
             files: info

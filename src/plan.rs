@@ -368,7 +368,6 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
         ratings: Ratings {
             rated_kv: plan.unit.rated_voltage_kv,
             rated_mva: plan.unit.rated_power_mva,
-            frequency_hz: plan.unit.frequency_hz,
         },
         plan,
         path: path.to_path_buf(),

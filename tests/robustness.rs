@@ -31,7 +31,6 @@ fn try_all(path: &Path) {
         ratings: Some(Ratings {
             rated_kv: 0.69,
             rated_mva: 4.2,
-            frequency_hz: 50.0,
         }),
         frequency_hz: 50.0,
         points_per_cycle: 64,

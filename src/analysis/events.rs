@@ -17,9 +17,19 @@ use serde::{Deserialize, Serialize};
 
 /// Which voltage a rule set judges.
 #[derive(
-    Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, Default, schemars::JsonSchema,
+    Clone,
+    Copy,
+    Debug,
+    PartialEq,
+    Eq,
+    Serialize,
+    Deserialize,
+    Default,
+    schemars::JsonSchema,
+    clap::ValueEnum,
 )]
 #[serde(rename_all = "snake_case")]
+#[value(rename_all = "snake_case")]
 pub enum ApplicableVoltage {
     #[default]
     PositiveSequence,
@@ -38,18 +48,6 @@ impl ApplicableVoltage {
             ApplicableVoltage::MaxPhaseToPhase => "max_phase_to_phase",
             ApplicableVoltage::MaxPhaseToNeutral => "max_phase_to_neutral",
         }
-    }
-
-    pub const ALL: [ApplicableVoltage; 5] = [
-        ApplicableVoltage::PositiveSequence,
-        ApplicableVoltage::MinPhaseToPhase,
-        ApplicableVoltage::MinPhaseToNeutral,
-        ApplicableVoltage::MaxPhaseToPhase,
-        ApplicableVoltage::MaxPhaseToNeutral,
-    ];
-
-    pub fn parse(s: &str) -> Option<Self> {
-        Self::ALL.into_iter().find(|a| a.name() == s.trim())
     }
 
     /// The voltage series, or why the recording cannot give it.
@@ -129,27 +127,40 @@ pub struct DetectionSettings {
     pub frequency_hz: f64,
 }
 
+/// The detection defaults, also the rule format's (one source).
+pub mod default {
+    pub const BELOW_PU: f64 = 0.90;
+    pub const ABOVE_PU: f64 = 1.10;
+    pub const HYSTERESIS_PU: f64 = 0.01;
+    pub const MIN_RETURN_S: f64 = 0.05;
+    pub const PREFAULT_WINDOW_S: f64 = 0.10;
+    pub const RECOVERY_ALLOWANCE_S: f64 = 1.0;
+    pub const UNBALANCE_RATIO: f64 = 0.05;
+    pub const TRIP_CURRENT_PU: f64 = 0.05;
+    pub const TRIP_MIN_S: f64 = 0.02;
+}
+
 impl DetectionSettings {
     pub fn defaults(frequency_hz: f64) -> Self {
         DetectionSettings {
             applicable: ApplicableVoltage::PositiveSequence,
-            below_pu: 0.90,
-            above_pu: 1.10,
-            hysteresis_pu: 0.01,
+            below_pu: default::BELOW_PU,
+            above_pu: default::ABOVE_PU,
+            hysteresis_pu: default::HYSTERESIS_PU,
             min_duration_s: 0.0,
-            min_return_s: 0.05,
-            prefault_window_s: 0.10,
+            min_return_s: default::MIN_RETURN_S,
+            prefault_window_s: default::PREFAULT_WINDOW_S,
             prefault_guard_s: 1.0 / frequency_hz,
-            recovery_allowance_s: 1.0,
-            unbalance_ratio: 0.05,
-            trip_current_pu: 0.05,
-            trip_min_s: 0.02,
+            recovery_allowance_s: default::RECOVERY_ALLOWANCE_S,
+            unbalance_ratio: default::UNBALANCE_RATIO,
+            trip_current_pu: default::TRIP_CURRENT_PU,
+            trip_min_s: default::TRIP_MIN_S,
             frequency_hz,
         }
     }
 }
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, schemars::JsonSchema)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, schemars::JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum DisturbanceKind {
     Undervoltage,
@@ -165,7 +176,13 @@ impl DisturbanceKind {
     }
 }
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, schemars::JsonSchema)]
+impl std::fmt::Display for DisturbanceKind {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, schemars::JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum Balance {
     Symmetrical,
@@ -181,6 +198,12 @@ impl Balance {
             Balance::Unbalanced => "unbalanced",
             Balance::Undetermined => "undetermined",
         }
+    }
+}
+
+impl std::fmt::Display for Balance {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
     }
 }
 
@@ -557,13 +580,29 @@ pub fn detect_disturbances(
 }
 
 /// How the trip state was determined.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, schemars::JsonSchema)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, schemars::JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum TripMethod {
     Status,
     Current,
     /// Neither a status channel nor usable current: a trip cannot be seen.
     None,
+}
+
+impl TripMethod {
+    pub fn name(self) -> &'static str {
+        match self {
+            TripMethod::Status => "status",
+            TripMethod::Current => "current",
+            TripMethod::None => "none",
+        }
+    }
+}
+
+impl std::fmt::Display for TripMethod {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, schemars::JsonSchema)]

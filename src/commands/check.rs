@@ -1,6 +1,7 @@
 //! `holdfast check`: the main job. Evaluates every test of a plan (or the
 //! recordings of a one-off check), in parallel, and writes the evidence pack.
 
+use super::ExitStatus;
 use crate::cli::{CheckArgs, CAUTION};
 use crate::error::{InputError, InputErrors, UsageError};
 use crate::pipeline::{self, Job};
@@ -79,7 +80,7 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
                 plan: Some((lp.path.clone(), lp.sha256.clone())),
                 unit_name: lp.plan.unit.name.clone(),
                 ratings: Some(lp.ratings),
-                frequency_hz: Some(lp.ratings.frequency_hz),
+                frequency_hz: Some(lp.plan.unit.frequency_hz),
                 rules,
                 tests: lp.tests,
                 options,
@@ -131,7 +132,7 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
     }
 }
 
-pub fn run(args: &CheckArgs) -> anyhow::Result<u8> {
+pub fn run(args: &CheckArgs) -> anyhow::Result<ExitStatus> {
     let job = job_from_args(args)?;
     let pack = report::pack::PackWriter::begin(&args.out, &pipeline::inputs_of(&job))?;
     let plots = pack.subdir("plots")?;
@@ -157,8 +158,8 @@ pub fn run(args: &CheckArgs) -> anyhow::Result<u8> {
     )?;
     writeln!(out, "{CAUTION}")?;
     Ok(if results.verdict == Verdict::Pass {
-        0
+        ExitStatus::Success
     } else {
-        1
+        ExitStatus::NotPassed
     })
 }

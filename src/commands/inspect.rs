@@ -1,8 +1,8 @@
 //! `holdfast inspect`: what a recording holds and which disturbances it shows.
 
+use super::ExitStatus;
 use crate::analysis::events::{
-    detect_disturbances, detect_trip, ApplicableVoltage, Balance, DetectionSettings, Disturbance,
-    TripInfo, TripMethod,
+    detect_disturbances, detect_trip, Balance, DetectionSettings, Disturbance, TripInfo, TripMethod,
 };
 use crate::analysis::{AnalysisSettings, Analyzer, POINTS_PER_CYCLE};
 use crate::cli::{InspectArgs, CAUTION};
@@ -45,20 +45,14 @@ pub struct InspectReport {
     caution: &'static str,
 }
 
-pub fn run(args: &InspectArgs) -> anyhow::Result<u8> {
+pub fn run(args: &InspectArgs) -> anyhow::Result<ExitStatus> {
     let map = args.map.channel_map()?;
     let mut opts = args.map.import_options()?;
     // Inspect reads what can be read: channels that cannot all be mapped
     // are left out with a note instead of stopping.
     opts.partial = true;
     let ratings = args.ratings.ratings()?;
-    let applicable = ApplicableVoltage::parse(&args.applicable).ok_or_else(|| {
-        UsageError(format!(
-            "--applicable '{}': use one of {}",
-            args.applicable,
-            ApplicableVoltage::ALL.map(|a| a.name()).join(", ")
-        ))
-    })?;
+    let applicable = args.applicable;
     if !(args.below_pu > 0.0 && args.below_pu < 1.0 && args.above_pu > 1.0) {
         return Err(
             UsageError("--below-pu must be in (0, 1) and --above-pu above 1".into()).into(),
@@ -118,10 +112,7 @@ pub fn run(args: &InspectArgs) -> anyhow::Result<u8> {
     } else {
         let f = frequency.unwrap_or(f64::NAN);
         let settings = AnalysisSettings {
-            ratings: ratings.map(|mut r| {
-                r.frequency_hz = f;
-                r
-            }),
+            ratings,
             frequency_hz: f,
             points_per_cycle: POINTS_PER_CYCLE,
             phase_order: map.phase_order.unwrap_or_default(),
@@ -203,7 +194,7 @@ pub fn run(args: &InspectArgs) -> anyhow::Result<u8> {
         write_text(&mut buf, &report)?;
         out.write_all(crate::text::lines(&String::from_utf8_lossy(&buf)).as_bytes())?;
     }
-    Ok(0)
+    Ok(ExitStatus::Success)
 }
 
 /// The JSON Schema of `inspect --json`.

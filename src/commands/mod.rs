@@ -1,5 +1,5 @@
 //! One module per subcommand. Each takes typed arguments from [`crate::cli`]
-//! and returns the exit status (0, 1) or an error (exit status 2).
+//! and returns an [`ExitStatus`], or an error (exit status 2).
 
 pub mod check;
 pub mod inspect;
@@ -8,8 +8,30 @@ pub mod synth;
 
 use crate::cli::{Cli, Command};
 
-/// Runs a parsed command line; `Ok` carries the exit status.
-pub fn run(cli: Cli) -> anyhow::Result<u8> {
+/// How a command that ran ends (interfaces.md, "Exit status"); input that
+/// cannot be used is an error instead, exit status 2.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum ExitStatus {
+    /// Done; for `check`: every test passed or was not applicable.
+    Success,
+    /// `check`: some test failed or was inconclusive.
+    NotPassed,
+}
+
+impl ExitStatus {
+    /// Exit status of input that cannot be used (and of bad arguments).
+    pub const BAD_INPUT: u8 = 2;
+
+    pub fn code(self) -> u8 {
+        match self {
+            ExitStatus::Success => 0,
+            ExitStatus::NotPassed => 1,
+        }
+    }
+}
+
+/// Runs a parsed command line.
+pub fn run(cli: Cli) -> anyhow::Result<ExitStatus> {
     match cli.command {
         Command::Inspect(args) => inspect::run(&args),
         Command::Synth(args) => synth::run(&args),
@@ -20,7 +42,7 @@ pub fn run(cli: Cli) -> anyhow::Result<u8> {
                 use std::io::Write;
                 let text = serde_json::to_string_pretty(&crate::plan::plan_schema())?;
                 writeln!(std::io::stdout().lock(), "{text}")?;
-                Ok(0)
+                Ok(ExitStatus::Success)
             }
         },
     }

@@ -1,9 +1,10 @@
 //! `holdfast rules ...`: work with rule sets.
 
+use super::ExitStatus;
 use crate::cli::{RulesArgs, RulesCommand};
 use std::io::Write;
 
-pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
+pub fn run(args: &RulesArgs) -> anyhow::Result<ExitStatus> {
     match &args.command {
         RulesCommand::Lint { file, set } => {
             let choices = set_choices(set)?;
@@ -32,12 +33,12 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
             std::io::stdout()
                 .lock()
                 .write_all(crate::text::lines(&String::from_utf8_lossy(&out)).as_bytes())?;
-            Ok(0)
+            Ok(ExitStatus::Success)
         }
         RulesCommand::Schema => {
             let text = serde_json::to_string_pretty(&crate::rules::schema::rules_schema())?;
             writeln!(std::io::stdout().lock(), "{text}")?;
-            Ok(0)
+            Ok(ExitStatus::Success)
         }
         RulesCommand::List => {
             let mut out = std::io::stdout().lock();
@@ -64,7 +65,7 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
                 writeln!(out)?;
             }
             writeln!(out, "{}", crate::cli::CAUTION)?;
-            Ok(0)
+            Ok(ExitStatus::Success)
         }
         RulesCommand::Plot { file, out, set } => {
             let loaded = crate::rules::load_with(file, &set_choices(set)?)?;
@@ -104,7 +105,7 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<u8> {
             for w in written {
                 writeln!(stdout, "{}", crate::text::line(&w.display().to_string()))?;
             }
-            Ok(0)
+            Ok(ExitStatus::Success)
         }
     }
 }

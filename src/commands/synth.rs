@@ -1,11 +1,11 @@
 //! `holdfast synth`: write a synthetic recording of a specified dip.
 
+use super::ExitStatus;
 use crate::cli::SynthArgs;
 use crate::error::UsageError;
-use crate::import::comtrade::cfg::{DataType, Revision};
-use crate::model::{Connection, CurrentUnit, Ratings, VoltageUnit};
+use crate::model::Ratings;
 use crate::synth::comtrade::write_comtrade;
-use crate::synth::{write_csv, DeadBandMode, SynthLayout, SynthSpec, TimeFormat};
+use crate::synth::{write_csv, SynthLayout, SynthSpec, TimeFormat};
 use anyhow::Context;
 use std::io::{BufWriter, Write};
 
@@ -80,63 +80,12 @@ pub fn spec_from_args(a: &SynthArgs) -> Result<SynthSpec, UsageError> {
             harmonics.push((o, amp));
         }
     }
-    let dead_band_mode = match a.dead_band_mode.as_str() {
-        "offset" => DeadBandMode::Offset,
-        "full" => DeadBandMode::Full,
-        o => {
-            return Err(UsageError(format!(
-                "--dead-band-mode '{o}': use offset or full"
-            )))
-        }
-    };
-    let layout = match a.layout.as_str() {
-        "waveform" => SynthLayout::Waveform,
-        "rms" => SynthLayout::Rms,
-        o => return Err(UsageError(format!("--layout '{o}': use waveform or rms"))),
-    };
-    let delimiter = match a.delimiter.as_str() {
-        "comma" | "," => b',',
-        "semicolon" | ";" => b';',
-        "tab" => b'\t',
-        o => {
-            return Err(UsageError(format!(
-                "--delimiter '{o}': use comma, semicolon or tab"
-            )))
-        }
-    };
-    let time_format = match a.time_format.as_str() {
-        "seconds" => TimeFormat::Seconds,
-        "iso" => TimeFormat::Iso,
-        o => {
-            return Err(UsageError(format!(
-                "--time-format '{o}': use seconds or iso"
-            )))
-        }
-    };
-    let voltage_unit = VoltageUnit::parse(&a.voltage_unit).ok_or_else(|| {
-        UsageError(format!(
-            "--voltage-unit '{}': use V, kV or pu",
-            a.voltage_unit
-        ))
-    })?;
-    let current_unit = CurrentUnit::parse(&a.current_unit).ok_or_else(|| {
-        UsageError(format!(
-            "--current-unit '{}': use A, kA or pu",
-            a.current_unit
-        ))
-    })?;
-    let connection = Connection::parse(&a.voltage_connection).ok_or_else(|| {
-        UsageError(format!(
-            "--voltage-connection '{}': use phase_to_neutral or phase_to_phase",
-            a.voltage_connection
-        ))
-    })?;
     let spec = SynthSpec {
         ratings: Ratings {
             rated_kv: a.rated_kv,
             rated_mva: a.rated_mva,
-            frequency_hz: a.frequency,
         },
+        frequency_hz: a.frequency,
         sample_rate_hz: a.sample_rate,
         duration_s: a.duration,
         fault_start_s: a.fault_start,
@@ -149,7 +98,7 @@ pub fn spec_from_args(a: &SynthArgs) -> Result<SynthSpec, UsageError> {
         q0_pu: a.q0,
         k_gain: a.k_gain,
         dead_band_pu: a.dead_band,
-        dead_band_mode,
+        dead_band_mode: a.dead_band_mode,
         iq_tau_s: a.iq_tau,
         current_limit_pu: a.current_limit,
         k2_gain: a.k2_gain,
@@ -159,13 +108,13 @@ pub fn spec_from_args(a: &SynthArgs) -> Result<SynthSpec, UsageError> {
         harmonics,
         noise_pu: a.noise,
         seed: a.seed,
-        layout,
-        voltage_unit,
-        current_unit,
-        connection,
-        delimiter,
+        layout: a.layout,
+        voltage_unit: a.voltage_unit,
+        current_unit: a.current_unit,
+        connection: a.voltage_connection,
+        delimiter: a.delimiter.byte(),
         decimal_comma: a.decimal_comma,
-        time_format,
+        time_format: a.time_format,
         status_column: a.status,
         steps,
         phase_order: a.phase_order,
@@ -174,7 +123,7 @@ pub fn spec_from_args(a: &SynthArgs) -> Result<SynthSpec, UsageError> {
     Ok(spec)
 }
 
-pub fn run(args: &SynthArgs) -> anyhow::Result<u8> {
+pub fn run(args: &SynthArgs) -> anyhow::Result<ExitStatus> {
     let spec = spec_from_args(args)?;
     let ext = args
         .out
@@ -183,22 +132,10 @@ pub fn run(args: &SynthArgs) -> anyhow::Result<u8> {
         .unwrap_or("")
         .to_ascii_lowercase();
     let n = if ext == "cfg" || ext == "cff" {
-        let dt = DataType::parse(&args.comtrade_type).ok_or_else(|| {
-            UsageError(format!(
-                "--comtrade-type '{}': use ascii, binary, binary32 or float32",
-                args.comtrade_type
-            ))
-        })?;
-        let rev = Revision::parse(&args.revision).ok_or_else(|| {
-            UsageError(format!(
-                "--revision '{}': use 1991, 1999 or 2013",
-                args.revision
-            ))
-        })?;
         if spec.layout == SynthLayout::Waveform && spec.time_format != TimeFormat::Seconds {
             return Err(UsageError("--time-format applies to CSV only".into()).into());
         }
-        write_comtrade(&spec, &args.out, dt, rev).map_err(|e| {
+        write_comtrade(&spec, &args.out, args.comtrade_type, args.revision).map_err(|e| {
             if e.kind() == std::io::ErrorKind::InvalidInput {
                 anyhow::Error::new(UsageError(e.to_string()))
             } else {
@@ -220,5 +157,5 @@ pub fn run(args: &SynthArgs) -> anyhow::Result<u8> {
         n
     };
     eprintln!("wrote {} ({n} samples)", args.out.display());
-    Ok(0)
+    Ok(ExitStatus::Success)
 }

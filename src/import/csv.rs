@@ -828,7 +828,7 @@ impl CsvSource {
             source_channels,
             line_frequency_hz: None,
             path: path.display().to_string(),
-            format: "CSV".into(),
+            format: crate::model::RecordingFormat::Csv,
             kind,
             connection,
             channels,

@@ -7,7 +7,7 @@
 //! Streaming keeps memory bounded for recordings of millions of samples: only
 //! the analysis output (decimated phasor quantities) is kept.
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use std::fmt;
 
 /// The signals a recording channel can be mapped to (the `--map` keys).
@@ -113,24 +113,30 @@ impl fmt::Display for ChannelKey {
 }
 
 /// Unit of the voltage channels.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Default)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Default, clap::ValueEnum)]
 pub enum VoltageUnit {
     #[default]
+    #[value(name = "V", alias = "v")]
     V,
     #[serde(rename = "kV")]
+    #[value(name = "kV", aliases = ["kv", "KV"])]
     KV,
     #[serde(rename = "pu")]
+    #[value(name = "pu", aliases = ["PU", "p.u."])]
     Pu,
 }
 
 /// Unit of the current channels.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Default)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Default, clap::ValueEnum)]
 pub enum CurrentUnit {
     #[default]
+    #[value(name = "A", alias = "a")]
     A,
     #[serde(rename = "kA")]
+    #[value(name = "kA", aliases = ["ka", "KA"])]
     KA,
     #[serde(rename = "pu")]
+    #[value(name = "pu", aliases = ["PU", "p.u."])]
     Pu,
 }
 
@@ -185,12 +191,16 @@ impl CurrentUnit {
 }
 
 /// How the three voltage channels were measured.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Default, schemars::JsonSchema)]
+#[derive(
+    Clone, Copy, Debug, PartialEq, Eq, Serialize, Default, schemars::JsonSchema, clap::ValueEnum,
+)]
 #[serde(rename_all = "snake_case")]
 pub enum Connection {
     #[default]
+    #[value(name = "phase_to_neutral", aliases = ["ph-n", "ln"])]
     PhaseToNeutral,
     /// `va`, `vb`, `vc` hold `v_ab`, `v_bc`, `v_ca`.
+    #[value(name = "phase_to_phase", aliases = ["ph-ph", "ll"])]
     PhaseToPhase,
 }
 
@@ -241,15 +251,15 @@ impl PhaseOrder {
     }
 }
 
-/// The unit's ratings, from the test plan or the rating flags.
+/// The unit's ratings, the per-unit bases (from the test plan or the
+/// rating flags). The nominal frequency travels beside them: it may come
+/// from each recording instead.
 #[derive(Clone, Copy, Debug, PartialEq, Serialize)]
 pub struct Ratings {
     /// Rated line-to-line RMS voltage `Un`, kV.
     pub rated_kv: f64,
     /// Rated apparent power `Sn`, MVA.
     pub rated_mva: f64,
-    /// Nominal frequency `fn`, Hz.
-    pub frequency_hz: f64,
 }
 
 impl Ratings {
@@ -268,13 +278,56 @@ impl Ratings {
 }
 
 /// Which signals a recording carries.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, schemars::JsonSchema)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, schemars::JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum RecordingKind {
     /// Instantaneous three-phase waveforms (voltages, optionally currents).
     Waveform,
     /// RMS-level series in per unit (`v_pos` with `p`/`q` or `ip`/`iq`).
     RmsLevel,
+}
+
+impl RecordingKind {
+    pub fn name(self) -> &'static str {
+        match self {
+            RecordingKind::Waveform => "waveform",
+            RecordingKind::RmsLevel => "rms_level",
+        }
+    }
+}
+
+impl std::fmt::Display for RecordingKind {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+/// The file format a recording was read from.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, schemars::JsonSchema)]
+pub enum RecordingFormat {
+    #[serde(rename = "CSV")]
+    Csv,
+    #[serde(rename = "COMTRADE")]
+    Comtrade,
+    /// Built in memory (synthetic recordings, tests).
+    #[serde(rename = "memory")]
+    Memory,
+}
+
+impl RecordingFormat {
+    pub fn name(self) -> &'static str {
+        match self {
+            RecordingFormat::Csv => "CSV",
+            RecordingFormat::Comtrade => "COMTRADE",
+            RecordingFormat::Memory => "memory",
+        }
+    }
+}
+
+impl std::fmt::Display for RecordingFormat {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
 }
 
 /// One mapped channel of a recording.
@@ -317,8 +370,7 @@ pub struct SourceChannel {
 #[derive(Clone, Debug, Serialize, schemars::JsonSchema)]
 pub struct RecordingInfo {
     pub path: String,
-    /// `CSV` or `COMTRADE`.
-    pub format: String,
+    pub format: RecordingFormat,
     pub kind: RecordingKind,
     pub connection: Connection,
     pub channels: Vec<ChannelInfo>,
@@ -356,7 +408,7 @@ impl RecordingInfo {
         };
         RecordingInfo {
             path: "(memory)".into(),
-            format: "memory".into(),
+            format: RecordingFormat::Memory,
             kind,
             connection,
             channels: keys

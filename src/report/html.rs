@@ -124,10 +124,10 @@ fn test_view(k: usize, t: &TestResult, figures: Vec<RenderedFigure>) -> TestView
         sha256: t.recording.sha256.clone(),
         format: format!(
             "{} ({})",
-            t.recording.format.clone().unwrap_or_default(),
+            t.recording.format.map(|f| f.name()).unwrap_or_default(),
             t.recording
                 .kind
-                .clone()
+                .map(|k| k.name())
                 .unwrap_or_default()
                 .replace('_', "-")
         ),
@@ -146,7 +146,7 @@ fn test_view(k: usize, t: &TestResult, figures: Vec<RenderedFigure>) -> TestView
             .enumerate()
             .map(|(n, d)| DistRow {
                 n,
-                kind: d.kind.clone(),
+                kind: d.kind.to_string(),
                 start: format!("{:.4} s", d.start_s),
                 end: d
                     .end_s
@@ -156,7 +156,7 @@ fn test_view(k: usize, t: &TestResult, figures: Vec<RenderedFigure>) -> TestView
                 extreme: s3(Some(d.extreme_pu), "pu"),
                 balance: match d.unbalance_ratio {
                     Some(u) => format!("{} (|V2|/|V1| {:.3})", d.balance, u),
-                    None => d.balance.clone(),
+                    None => d.balance.to_string(),
                 },
                 residual: match (d.residual_v1_pu, d.residual_phase_pu) {
                     (Some(v1), Some(p)) => {
@@ -185,13 +185,12 @@ fn test_view(k: usize, t: &TestResult, figures: Vec<RenderedFigure>) -> TestView
         trip: match (t.trip.tripped, t.trip.time_s) {
             (true, Some(ts)) => format!(
                 "tripped at {ts:.4} s (from {})",
-                t.trip.method.clone().unwrap_or_default()
+                t.trip.method.map(|m| m.name()).unwrap_or_default()
             ),
             _ => format!(
                 "no trip{}",
                 t.trip
                     .method
-                    .as_deref()
                     .map(|m| format!(" (seen from: {m})"))
                     .unwrap_or_default()
             ),

@@ -3,6 +3,8 @@
 //! additions are optional fields only.
 
 pub use super::registry::{CheckKind, Unit};
+use crate::analysis::events::{Balance, DisturbanceKind, TripMethod};
+use crate::model::{RecordingFormat, RecordingKind};
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 use std::borrow::Cow;
@@ -283,15 +285,13 @@ impl CheckResult {
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
 pub struct DisturbanceResult {
-    /// `undervoltage` or `overvoltage`.
-    pub kind: String,
+    pub kind: DisturbanceKind,
     pub start_s: f64,
     /// Null when the recording ends before the voltage returned.
     #[schemars(with = "Nullable<f64>")]
     pub end_s: Option<f64>,
     pub extreme_pu: f64,
-    /// `symmetrical`, `unbalanced` or `undetermined`.
-    pub balance: String,
+    pub balance: Balance,
     #[serde(default)]
     pub extreme_at_s: Option<f64>,
     #[serde(default)]
@@ -333,9 +333,9 @@ pub struct TripResult {
     pub tripped: bool,
     #[schemars(with = "Nullable<f64>")]
     pub time_s: Option<f64>,
-    /// `status`, `current` or `none` (cannot be seen).
+    /// `none`: a trip cannot be seen.
     #[serde(default)]
-    pub method: Option<String>,
+    pub method: Option<TripMethod>,
     /// Momentary cessation intervals `[from, to]`, s.
     #[serde(default)]
     pub cessations: Vec<[f64; 2]>,
@@ -350,10 +350,9 @@ pub struct RecordingResult {
     pub sample_rate_hz: f64,
     pub duration_s: f64,
     #[serde(default)]
-    pub format: Option<String>,
-    /// `waveform` or `rms_level`.
+    pub format: Option<RecordingFormat>,
     #[serde(default)]
-    pub kind: Option<String>,
+    pub kind: Option<RecordingKind>,
     #[serde(default)]
     pub samples: Option<u64>,
     /// Format facts worth a reviewer's eye (e.g. COMTRADE station, revision).
@@ -446,22 +445,12 @@ impl Results {
 
 impl From<&crate::analysis::events::Disturbance> for DisturbanceResult {
     fn from(d: &crate::analysis::events::Disturbance) -> Self {
-        use crate::analysis::events::{Balance, DisturbanceKind};
         DisturbanceResult {
-            kind: match d.kind {
-                DisturbanceKind::Undervoltage => "undervoltage",
-                DisturbanceKind::Overvoltage => "overvoltage",
-            }
-            .into(),
+            kind: d.kind,
             start_s: d.start_s,
             end_s: d.end_s,
             extreme_pu: d.extreme_pu,
-            balance: match d.balance {
-                Balance::Symmetrical => "symmetrical",
-                Balance::Unbalanced => "unbalanced",
-                Balance::Undetermined => "undetermined",
-            }
-            .into(),
+            balance: d.balance,
             extreme_at_s: Some(d.extreme_at_s),
             duration_s: d.duration_s(),
             unbalance_ratio: d.unbalance_ratio,
@@ -480,18 +469,10 @@ impl From<&crate::analysis::events::Disturbance> for DisturbanceResult {
 
 impl From<&crate::analysis::events::TripInfo> for TripResult {
     fn from(t: &crate::analysis::events::TripInfo) -> Self {
-        use crate::analysis::events::TripMethod;
         TripResult {
             tripped: t.tripped,
             time_s: if t.tripped { t.time_s } else { None },
-            method: Some(
-                match t.method {
-                    TripMethod::Status => "status",
-                    TripMethod::Current => "current",
-                    TripMethod::None => "none",
-                }
-                .into(),
-            ),
+            method: Some(t.method),
             cessations: t.cessations.iter().map(|(a, b)| [*a, *b]).collect(),
             note: t.note.clone(),
         }

@@ -13,7 +13,7 @@ pub use super::checks::reactive_current::{
 pub use super::checks::CheckSpec;
 pub use super::registry::{CheckKind, Unit};
 pub use super::zone::{Bound, Cessation, Side, TableMode, TableRow};
-use crate::analysis::events::ApplicableVoltage;
+use crate::analysis::events::{default, ApplicableVoltage};
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 
@@ -69,25 +69,25 @@ pub struct DisturbanceSpec {
 }
 
 fn d_below() -> f64 {
-    0.90
+    default::BELOW_PU
 }
 fn d_above() -> f64 {
-    1.10
+    default::ABOVE_PU
 }
 fn d_hyst() -> f64 {
-    0.01
+    default::HYSTERESIS_PU
 }
 fn d_return() -> f64 {
-    0.05
+    default::MIN_RETURN_S
 }
 fn d_pre() -> f64 {
-    0.10
+    default::PREFAULT_WINDOW_S
 }
 fn d_unb() -> f64 {
-    0.05
+    default::UNBALANCE_RATIO
 }
 fn d_trip() -> f64 {
-    0.05
+    default::TRIP_CURRENT_PU
 }
 
 impl Default for DisturbanceSpec {

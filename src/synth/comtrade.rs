@@ -162,7 +162,7 @@ pub fn write_comtrade(
             _ => format!("{},status,,SR07,1", n_analog + 1),
         });
     }
-    line(format!("{}", spec.ratings.frequency_hz));
+    line(format!("{}", spec.frequency_hz));
     line("1".into());
     line(format!("{},{n}", spec.sample_rate_hz));
     let origin = chrono::NaiveDate::from_ymd_opt(2026, 3, 14)

@@ -32,7 +32,7 @@ use serde::Serialize;
 use std::f64::consts::{PI, SQRT_2};
 use std::io::Write;
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, clap::ValueEnum)]
 #[serde(rename_all = "snake_case")]
 pub enum DeadBandMode {
     /// Required current `k·(|ΔV| − db)`.
@@ -41,7 +41,7 @@ pub enum DeadBandMode {
     Full,
 }
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
 pub enum SynthLayout {
     /// Instantaneous three-phase voltages and currents.
     Waveform,
@@ -49,16 +49,39 @@ pub enum SynthLayout {
     Rms,
 }
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
 pub enum TimeFormat {
     Seconds,
+    /// ISO-8601 timestamps.
     Iso,
+}
+
+/// The field delimiter of a written CSV file.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum Delimiter {
+    #[value(alias = ",")]
+    Comma,
+    #[value(alias = ";")]
+    Semicolon,
+    Tab,
+}
+
+impl Delimiter {
+    pub fn byte(self) -> u8 {
+        match self {
+            Delimiter::Comma => b',',
+            Delimiter::Semicolon => b';',
+            Delimiter::Tab => b'\t',
+        }
+    }
 }
 
 /// Everything that defines a synthetic recording.
 #[derive(Clone, Debug, PartialEq)]
 pub struct SynthSpec {
     pub ratings: Ratings,
+    /// Nominal frequency, Hz.
+    pub frequency_hz: f64,
     pub sample_rate_hz: f64,
     pub duration_s: f64,
     pub fault_start_s: f64,
@@ -110,8 +133,8 @@ impl SynthSpec {
             ratings: Ratings {
                 rated_kv: 0.69,
                 rated_mva: 4.2,
-                frequency_hz: 50.0,
             },
+            frequency_hz: 50.0,
             sample_rate_hz: 10_000.0,
             duration_s: 3.0,
             fault_start_s: 1.0,
@@ -158,13 +181,11 @@ impl SynthSpec {
         };
         pos("--sample-rate", self.sample_rate_hz)?;
         pos("--duration", self.duration_s)?;
-        pos("--frequency", self.ratings.frequency_hz)?;
+        pos("--frequency", self.frequency_hz)?;
         pos("--rated-kv", self.ratings.rated_kv)?;
         pos("--rated-mva", self.ratings.rated_mva)?;
         pos("--current-limit", self.current_limit_pu)?;
-        if self.sample_rate_hz < 8.0 * self.ratings.frequency_hz
-            && self.layout == SynthLayout::Waveform
-        {
+        if self.sample_rate_hz < 8.0 * self.frequency_hz && self.layout == SynthLayout::Waveform {
             return Err("--sample-rate must be at least 8 samples per cycle for waveforms".into());
         }
         if self
@@ -213,7 +234,7 @@ pub fn generate(
     mut emit: impl FnMut(u64, f64, &SampleValues) -> std::io::Result<()>,
 ) -> std::io::Result<u64> {
     let r = &spec.ratings;
-    let w = 2.0 * PI * r.frequency_hz;
+    let w = 2.0 * PI * spec.frequency_hz;
     let dt = 1.0 / spec.sample_rate_hz;
     let n = (spec.duration_s * spec.sample_rate_hz).round() as u64 + 1;
     let a = sequence::a();

@@ -11,10 +11,13 @@ use crate::error::InputError;
 pub const MAX_CHANNELS: u64 = 10_000;
 use std::path::Path;
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
 pub enum Revision {
+    #[value(name = "1991")]
     R1991,
+    #[value(name = "1999")]
     R1999,
+    #[value(name = "2013")]
     R2013,
 }
 
@@ -36,7 +39,7 @@ impl Revision {
     }
 }
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
 pub enum DataType {
     Ascii,
     Binary,

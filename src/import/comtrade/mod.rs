@@ -644,7 +644,7 @@ impl ComtradeSource {
             line_frequency_hz: Some(cfg.line_frequency)
                 .filter(|f| f.is_finite() && *f >= 10.0 && *f <= 1000.0),
             path: path.display().to_string(),
-            format: "COMTRADE".into(),
+            format: crate::model::RecordingFormat::Comtrade,
             kind,
             connection,
             channels,
