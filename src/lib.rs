@@ -20,6 +20,17 @@
 //! applicable grid code, the network operator and licensed professional
 //! practice decide.
 
+/// `Display` as the type's `name()` (the spelling files and reports use).
+macro_rules! display_as_name {
+    ($($t:ty),* $(,)?) => {
+        $(impl std::fmt::Display for $t {
+            fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+                f.write_str(self.name())
+            }
+        })*
+    };
+}
+
 pub mod analysis;
 pub mod cli;
 pub mod commands;

@@ -176,12 +176,6 @@ impl DisturbanceKind {
     }
 }
 
-impl std::fmt::Display for DisturbanceKind {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(self.name())
-    }
-}
-
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, schemars::JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum Balance {
@@ -198,12 +192,6 @@ impl Balance {
             Balance::Unbalanced => "unbalanced",
             Balance::Undetermined => "undetermined",
         }
-    }
-}
-
-impl std::fmt::Display for Balance {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(self.name())
     }
 }
 
@@ -599,12 +587,6 @@ impl TripMethod {
     }
 }
 
-impl std::fmt::Display for TripMethod {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(self.name())
-    }
-}
-
 #[derive(Clone, Debug, PartialEq, Serialize, schemars::JsonSchema)]
 pub struct TripInfo {
     pub tripped: bool,
@@ -715,3 +697,5 @@ pub fn detect_trip(s: &Series, cfg: &DetectionSettings) -> TripInfo {
     }
     info
 }
+
+display_as_name!(DisturbanceKind, Balance, TripMethod);

@@ -8,7 +8,6 @@
 //! the analysis output (decimated phasor quantities) is kept.
 
 use serde::{Deserialize, Serialize};
-use std::fmt;
 
 /// The signals a recording channel can be mapped to (the `--map` keys).
 #[derive(
@@ -103,12 +102,6 @@ impl ChannelKey {
             self,
             ChannelKey::VPos | ChannelKey::P | ChannelKey::Q | ChannelKey::Ip | ChannelKey::Iq
         )
-    }
-}
-
-impl fmt::Display for ChannelKey {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(self.name())
     }
 }
 
@@ -296,12 +289,6 @@ impl RecordingKind {
     }
 }
 
-impl std::fmt::Display for RecordingKind {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(self.name())
-    }
-}
-
 /// The file format a recording was read from.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, schemars::JsonSchema)]
 pub enum RecordingFormat {
@@ -321,12 +308,6 @@ impl RecordingFormat {
             RecordingFormat::Comtrade => "COMTRADE",
             RecordingFormat::Memory => "memory",
         }
-    }
-}
-
-impl std::fmt::Display for RecordingFormat {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(self.name())
     }
 }
 
@@ -501,3 +482,5 @@ impl FrameSink for Collected {
         }
     }
 }
+
+display_as_name!(ChannelKey, RecordingKind, RecordingFormat);

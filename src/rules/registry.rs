@@ -58,12 +58,6 @@ macro_rules! define_kinds {
 
 check_types!(define_kinds);
 
-impl std::fmt::Display for CheckKind {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(self.name())
-    }
-}
-
 /// The unit of a check's measured value, limit and margin.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, JsonSchema)]
 pub enum Unit {
@@ -82,8 +76,4 @@ impl Unit {
     }
 }
 
-impl std::fmt::Display for Unit {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(self.name())
-    }
-}
+display_as_name!(CheckKind, Unit);
