@@ -171,6 +171,69 @@ fn every_type_and_revision_round_trips_within_quantisation() {
     assert!(VT_RATIO.0 > VT_RATIO.1 && CT_RATIO.0 > CT_RATIO.1);
 }
 
+#[test]
+fn a_per_unit_mapping_overrides_the_unit_the_channel_states() {
+    // A per-unit recording whose voltage channels are labelled kV: with the
+    // mapping's voltage unit pu the values stay per unit (the importer said
+    // so in a note, but once handed the samples over as volts, so the
+    // analysis divided them by the voltage base a second time). Check
+    // value: the generator's own residual voltage, 0.2 pu.
+    let mut spec = SynthSpec::example();
+    spec.voltage_unit = holdfast::model::VoltageUnit::Pu;
+    spec.current_unit = holdfast::model::CurrentUnit::Pu;
+    spec.duration_s = 1.0;
+    spec.fault_start_s = 0.5;
+    spec.fault_duration_s = 0.2;
+    let dir = tempfile::tempdir().unwrap();
+    let p = dir.path().join("pu-labelled-kv.cfg");
+    write_comtrade(&spec, &p, DataType::Ascii, Revision::R2013).unwrap();
+    let cfg = std::fs::read_to_string(&p).unwrap();
+    let relabelled: Vec<String> = cfg
+        .lines()
+        .enumerate()
+        .map(|(i, l)| {
+            if (2..5).contains(&i) {
+                l.replacen(",pu,", ",kV,", 1)
+            } else {
+                l.to_string()
+            }
+        })
+        .collect();
+    std::fs::write(&p, relabelled.join("\n") + "\n").unwrap();
+    let out = Command::cargo_bin("holdfast")
+        .unwrap()
+        .arg("inspect")
+        .arg(&p)
+        .args([
+            "--voltage-unit",
+            "pu",
+            "--rated-kv",
+            "0.69",
+            "--rated-mva",
+            "4.2",
+            "--json",
+        ])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    let ch = &v["recording"]["channels"][0];
+    assert_eq!(ch["unit"], "kV (P)");
+    assert_eq!(ch["canonical_unit"], "pu");
+    let d = &v["disturbances"][0];
+    assert!(
+        (d["extreme_pu"].as_f64().unwrap() - 0.2).abs() < 0.01,
+        "{d}"
+    );
+    assert!((d["start_s"].as_f64().unwrap() - 0.5).abs() < 0.01, "{d}");
+    let notes = v["recording"]["notes"].to_string();
+    assert!(notes.contains("the mapping's unit pu is used"), "{notes}");
+}
+
 /// A configuration and data written by hand from IEEE C37.111-2013 (= IEC
 /// 60255-24:2013) clause 7 (configuration) and clause 8 (data), with values
 /// that follow from the scaling formula a·x + b and the PS flag.

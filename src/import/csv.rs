@@ -15,7 +15,7 @@
 //! the sink in order. Memory stays bounded by the chunk size whatever the
 //! file size.
 
-use super::{check_channel_set, ChannelMap, ImportOptions, Source};
+use super::{channels, timebase, ChannelMap, ImportOptions, Source};
 use crate::error::InputError;
 use crate::files::Hashing;
 use crate::model::{
@@ -512,404 +512,491 @@ fn split_at_lines(region: &[u8], n: usize) -> Vec<&[u8]> {
     pieces
 }
 
-impl CsvSource {
-    pub fn open(path: &Path, map: &ChannelMap, opts: &ImportOptions) -> Result<Self, InputError> {
-        let mut file = Hashing::new(crate::files::open_regular(path, "recording")?);
-        let mut buf = Vec::new();
-        let mut eof = fill(&mut file, &mut buf, 1 << 20, path)?;
-        // The header and the rows used to estimate the step must be complete.
-        while !eof && memchr::memchr_iter(b'\n', &buf).count() <= STEP_ESTIMATE_ROWS + 1 {
-            if buf.len() >= PROBE_BYTES {
-                break;
-            }
-            eof = fill(&mut file, &mut buf, 1 << 20, path)?;
-        }
-        if buf.starts_with(&[0xEF, 0xBB, 0xBF]) {
-            buf.drain(..3);
-        }
-        if buf.iter().all(|b| b.is_ascii_whitespace()) {
-            return Err(InputError::new(path, "the file is empty")
-                .hint("a recording needs a header row and at least two data rows"));
-        }
-        let header_end = match memchr::memchr(b'\n', &buf) {
-            Some(i) => i,
-            None if eof => buf.len(),
-            None => {
-                return Err(InputError::new(
-                    path,
-                    format!("the header line is longer than {} bytes", buf.len()),
-                )
-                .line(1)
-                .hint("is this a CSV recording?"))
-            }
-        };
-        let mut header_line = &buf[..header_end];
-        if let [rest @ .., b'\r'] = header_line {
-            header_line = rest;
-        }
-        let delim = [b',', b';', b'\t']
-            .into_iter()
-            .max_by_key(|d| (count_outside_quotes(header_line, *d), *d == b','))
-            .unwrap_or(b',');
-        let header: Vec<String> = split_fields(header_line, delim)
-            .into_iter()
-            .map(|f| String::from_utf8_lossy(strip_quotes(f)).trim().to_string())
-            .collect();
-        let ncols = header.len();
-        if ncols > MAX_COLUMNS {
+/// The header row and what it tells.
+struct Header {
+    /// Byte offset of the header's line end in the first buffer.
+    end: usize,
+    delim: u8,
+    names: Vec<String>,
+    /// Names without their unit suffix: "Ua(V)" → ("Ua", "V").
+    bare: Vec<(String, Option<String>)>,
+}
+
+/// Reads the header row: delimiter, column names; at least two named columns.
+fn read_header(path: &Path, buf: &[u8], eof: bool) -> Result<Header, InputError> {
+    let end = match memchr::memchr(b'\n', buf) {
+        Some(i) => i,
+        None if eof => buf.len(),
+        None => {
             return Err(InputError::new(
                 path,
-                format!("the header has {ncols} columns; at most {MAX_COLUMNS} are accepted"),
-            )
-            .line(1));
-        }
-        if ncols < 2 {
-            return Err(InputError::new(
-                path,
-                "the header row has a single column; no delimiter (',' ';' or tab) was found",
+                format!("the header line is longer than {} bytes", buf.len()),
             )
             .line(1)
-            .hint("the first line must name the columns, e.g. t,va,vb,vc,ia,ib,ic"));
+            .hint("is this a CSV recording?"))
         }
-        if header.iter().any(|h| h.is_empty()) {
-            let i = header.iter().position(|h| h.is_empty()).unwrap_or(0);
-            return Err(
-                InputError::new(path, format!("column {} has no name", i + 1))
-                    .line(1)
-                    .hint("give every column a name in the header row"),
-            );
-        }
+    };
+    let mut line = &buf[..end];
+    if let [rest @ .., b'\r'] = line {
+        line = rest;
+    }
+    let delim = [b',', b';', b'\t']
+        .into_iter()
+        .max_by_key(|d| (count_outside_quotes(line, *d), *d == b','))
+        .unwrap_or(b',');
+    let names: Vec<String> = split_fields(line, delim)
+        .into_iter()
+        .map(|f| String::from_utf8_lossy(strip_quotes(f)).trim().to_string())
+        .collect();
+    let ncols = names.len();
+    if ncols > MAX_COLUMNS {
+        return Err(InputError::new(
+            path,
+            format!("the header has {ncols} columns; at most {MAX_COLUMNS} are accepted"),
+        )
+        .line(1));
+    }
+    if ncols < 2 {
+        return Err(InputError::new(
+            path,
+            "the header row has a single column; no delimiter (',' ';' or tab) was found",
+        )
+        .line(1)
+        .hint("the first line must name the columns, e.g. t,va,vb,vc,ia,ib,ic"));
+    }
+    if let Some(i) = names.iter().position(|h| h.is_empty()) {
+        return Err(
+            InputError::new(path, format!("column {} has no name", i + 1))
+                .line(1)
+                .hint("give every column a name in the header row"),
+        );
+    }
+    let bare = names.iter().map(|h| channels::split_unit(h)).collect();
+    Ok(Header {
+        end,
+        delim,
+        names,
+        bare,
+    })
+}
 
-        // Resolve the mapping.
-        let find = |name: &str| -> Result<usize, InputError> {
-            let hits: Vec<usize> = header
-                .iter()
-                .enumerate()
-                .filter(|(_, h)| h.eq_ignore_ascii_case(name.trim()))
-                .map(|(i, _)| i)
-                .collect();
-            match hits.len() {
-                1 => Ok(hits[0]),
-                0 => Err(InputError::new(path, "column not found in the header row")
-                    .line(1)
-                    .field(name)
-                    .hint(format!("columns are: {}", header.join(", ")))),
-                _ => Err(InputError::new(path, "column name appears more than once")
-                    .line(1)
-                    .field(name)
-                    .hint("rename the columns so that each name is unique")),
-            }
-        };
-        // Header names without a unit suffix: "Ua(V)" → ("Ua", "V").
-        let bare: Vec<(String, Option<String>)> =
-            header.iter().map(|h| super::split_unit(h)).collect();
-        let time_col: Option<usize> = match &map.time {
-            Some(name) => Some(find(name)?),
-            None => bare
+/// Columns mapped to channel keys, and the time column.
+struct Columns {
+    time: Option<usize>,
+    mapped: Vec<(ChannelKey, usize)>,
+    connection: Connection,
+    kind: RecordingKind,
+    notes: Vec<String>,
+}
+
+impl Header {
+    /// The one column of this name (any case).
+    fn find(&self, path: &Path, name: &str) -> Result<usize, InputError> {
+        let hits: Vec<usize> = self
+            .names
+            .iter()
+            .enumerate()
+            .filter(|(_, h)| h.eq_ignore_ascii_case(name.trim()))
+            .map(|(i, _)| i)
+            .collect();
+        match hits.len() {
+            1 => Ok(hits[0]),
+            0 => Err(InputError::new(path, "column not found in the header row")
+                .line(1)
+                .field(name)
+                .hint(format!("columns are: {}", self.names.join(", ")))),
+            _ => Err(InputError::new(path, "column name appears more than once")
+                .line(1)
+                .field(name)
+                .hint("rename the columns so that each name is unique")),
+        }
+    }
+
+    /// The column of a key: as mapped, else by its key name, else by a
+    /// common name (Ua, V_b, IL3 … unit suffix apart) that only one column has.
+    fn column_of(
+        &self,
+        path: &Path,
+        map: &ChannelMap,
+        key: ChannelKey,
+    ) -> Result<Option<usize>, InputError> {
+        if let Some(name) = map.column_for(key) {
+            return self.find(path, name).map(Some);
+        }
+        if let Some(i) = self
+            .names
+            .iter()
+            .position(|h| h.eq_ignore_ascii_case(key.name()))
+        {
+            return Ok(Some(i));
+        }
+        let hits: Vec<usize> = self
+            .bare
+            .iter()
+            .enumerate()
+            .filter(|(_, (h, _))| channels::name_means(h) == Some(key))
+            .map(|(i, _)| i)
+            .collect();
+        Ok((hits.len() == 1).then(|| hits[0]))
+    }
+
+    /// Resolves the mapping: time column, one column per key at most, a
+    /// complete channel set.
+    fn map_columns(
+        &self,
+        path: &Path,
+        map: &ChannelMap,
+        opts: &ImportOptions,
+    ) -> Result<Columns, InputError> {
+        let time: Option<usize> = match &map.time {
+            Some(name) => Some(self.find(path, name)?),
+            None => self
+                .bare
                 .iter()
                 .position(|(h, _)| h.eq_ignore_ascii_case("t") || h.eq_ignore_ascii_case("time")),
         };
-        if time_col.is_none() && map.sample_rate_hz.is_none() {
+        if time.is_none() && map.sample_rate_hz.is_none() {
             return Err(InputError::new(path, "no time column")
                 .line(1)
                 .hint(format!(
                     "name it 't' or 'time', map it with --map time=COLUMN, or give --sample-rate HZ (plan: channels.sample_rate_hz) for a file without one; columns are: {}",
-                    header.join(", ")
+                    self.names.join(", ")
                 )));
         }
         let mut mapped: Vec<(ChannelKey, usize)> = Vec::new();
         for key in ChannelKey::ALL {
-            let col = match map.column_for(key) {
-                Some(name) => Some(find(name)?),
-                None => header
-                    .iter()
-                    .position(|h| h.eq_ignore_ascii_case(key.name()))
-                    .or_else(|| {
-                        // Common names: Ua, V_b, IL3, Uab … (unit suffix apart).
-                        let hits: Vec<usize> = bare
-                            .iter()
-                            .enumerate()
-                            .filter(|(_, (h, _))| super::name_means(h) == Some(key))
-                            .map(|(i, _)| i)
-                            .collect();
-                        (hits.len() == 1).then(|| hits[0])
-                    }),
+            let Some(c) = self.column_of(path, map, key)? else {
+                continue;
             };
-            if let Some(c) = col {
-                if Some(c) == time_col {
-                    return Err(InputError::new(
-                        path,
-                        format!("column is mapped both as time and as '{key}'"),
-                    )
-                    .line(1)
-                    .field(&header[c]));
-                }
-                if let Some((other, _)) = mapped.iter().find(|(_, oc)| *oc == c) {
-                    return Err(InputError::new(
-                        path,
-                        format!("column is mapped both as '{other}' and as '{key}'"),
-                    )
-                    .line(1)
-                    .field(&header[c]));
-                }
-                mapped.push((key, c));
+            let twice = |what: String| {
+                InputError::new(
+                    path,
+                    format!("column is mapped both as {what} and as '{key}'"),
+                )
+                .line(1)
+                .field(&self.names[c])
+            };
+            if Some(c) == time {
+                return Err(twice("time".into()));
             }
+            if let Some((other, _)) = mapped.iter().find(|(_, oc)| *oc == c) {
+                return Err(twice(format!("'{other}'")));
+            }
+            mapped.push((key, c));
         }
-        let mut keys: Vec<ChannelKey> = mapped.iter().map(|(k, _)| *k).collect();
+        let keys: Vec<ChannelKey> = mapped.iter().map(|(k, _)| *k).collect();
         let connection = map.connection.unwrap_or(Connection::PhaseToNeutral);
-        let mut partial_notes = Vec::new();
-        if opts.partial {
-            let (drop, why) = super::partial_channel_set(&keys, connection);
-            mapped.retain(|(k, _)| !drop.contains(k));
-            keys.retain(|k| !drop.contains(k));
-            partial_notes = why;
-        }
-        check_channel_set(path, &keys, connection, opts.partial)?;
-        let kind = if keys.contains(&ChannelKey::VPos) {
-            RecordingKind::RmsLevel
-        } else {
-            RecordingKind::Waveform
-        };
-        // Units: as given, else from the header's unit suffix ("Ua(kV)").
-        let suffix_of = |want: fn(ChannelKey) -> bool| -> Option<String> {
-            mapped
-                .iter()
-                .filter(|(k, _)| want(*k))
-                .find_map(|(_, c)| bare[*c].1.clone())
-        };
-        let vu = map
-            .voltage_unit
-            .or_else(|| suffix_of(ChannelKey::is_voltage).and_then(|u| VoltageUnit::parse(&u)))
-            .unwrap_or(match kind {
-                RecordingKind::Waveform => VoltageUnit::V,
-                RecordingKind::RmsLevel => VoltageUnit::Pu,
-            });
-        let cu = map
-            .current_unit
-            .or_else(|| {
-                suffix_of(ChannelKey::is_phase_current).and_then(|u| CurrentUnit::parse(&u))
-            })
-            .unwrap_or(CurrentUnit::A);
+        let set = channels::settle_channel_set(path, &keys, connection, opts.partial)?;
+        mapped.retain(|(k, _)| !set.dropped.contains(k));
+        Ok(Columns {
+            time,
+            mapped,
+            connection,
+            kind: set.kind,
+            notes: set.notes,
+        })
+    }
+}
 
-        let mut col_slot = vec![SKIP; ncols];
-        if let Some(tc) = time_col {
-            col_slot[tc] = TIME;
-        }
-        let mut scale = Vec::new();
-        let mut channels = Vec::new();
-        let mut slot_keys = Vec::new();
-        for (slot, (key, col)) in mapped.iter().enumerate() {
-            col_slot[*col] = slot as u16;
-            let (unit, factor, canonical): (String, f64, &'static str) = if key.is_voltage() {
-                (
-                    vu.label().into(),
-                    vu.factor(),
-                    if vu == VoltageUnit::Pu { "pu" } else { "V" },
-                )
-            } else if key.is_phase_current() {
-                (
-                    cu.label().into(),
-                    cu.factor(),
-                    if cu == CurrentUnit::Pu { "pu" } else { "A" },
-                )
-            } else if *key == ChannelKey::Status {
-                ("1 = connected".into(), 1.0, "0/1")
+/// The mapped columns' units, factors and descriptions.
+struct ChannelUnits {
+    col_slot: Vec<u16>,
+    scale: Vec<f64>,
+    channels: Vec<ChannelInfo>,
+    slot_keys: Vec<ChannelKey>,
+}
+
+/// Units: as given, else from the header's unit suffix ("Ua(kV)"), else
+/// V and A (waveforms) or pu (RMS-level).
+fn channel_units(
+    path: &Path,
+    header: &Header,
+    cols: &Columns,
+    map: &ChannelMap,
+) -> Result<ChannelUnits, InputError> {
+    let suffix_of = |want: fn(ChannelKey) -> bool| -> Option<String> {
+        cols.mapped
+            .iter()
+            .filter(|(k, _)| want(*k))
+            .find_map(|(_, c)| header.bare[*c].1.clone())
+    };
+    let vu = map
+        .voltage_unit
+        .or_else(|| suffix_of(ChannelKey::is_voltage).and_then(|u| VoltageUnit::parse(&u)))
+        .unwrap_or(match cols.kind {
+            RecordingKind::Waveform => VoltageUnit::V,
+            RecordingKind::RmsLevel => VoltageUnit::Pu,
+        });
+    let cu = map
+        .current_unit
+        .or_else(|| suffix_of(ChannelKey::is_phase_current).and_then(|u| CurrentUnit::parse(&u)))
+        .unwrap_or(CurrentUnit::A);
+    if cols.kind == RecordingKind::RmsLevel && vu != VoltageUnit::Pu {
+        let v_pos = cols
+            .mapped
+            .iter()
+            .find(|(k, _)| *k == ChannelKey::VPos)
+            .map_or(0, |(_, c)| *c);
+        return Err(InputError::new(
+            path,
+            "RMS-level channels (v_pos, p, q, ip, iq) must be in per unit",
+        )
+        .field(&header.names[v_pos])
+        .hint("drop --voltage-unit, or convert the columns to per unit"));
+    }
+    let mut out = ChannelUnits {
+        col_slot: vec![SKIP; header.names.len()],
+        scale: Vec::new(),
+        channels: Vec::new(),
+        slot_keys: Vec::new(),
+    };
+    if let Some(tc) = cols.time {
+        out.col_slot[tc] = TIME;
+    }
+    for (slot, (key, col)) in cols.mapped.iter().enumerate() {
+        out.col_slot[*col] = slot as u16;
+        let (unit, factor, per_unit): (String, f64, bool) = if key.is_voltage() {
+            (vu.label().into(), vu.factor(), vu == VoltageUnit::Pu)
+        } else if key.is_phase_current() {
+            (cu.label().into(), cu.factor(), cu == CurrentUnit::Pu)
+        } else if *key == ChannelKey::Status {
+            ("1 = connected".into(), 1.0, false)
+        } else {
+            ("pu".into(), 1.0, true)
+        };
+        out.scale.push(factor);
+        out.slot_keys.push(*key);
+        out.channels.push(ChannelInfo {
+            key: *key,
+            source: header.names[*col].clone(),
+            index: *col,
+            unit,
+            scale: factor,
+            canonical_unit: channels::canonical_unit(*key, per_unit),
+        });
+    }
+    Ok(out)
+}
+
+/// What the first data row tells: decimal comma, how time is written.
+struct FirstRow {
+    decimal_comma: bool,
+    time: TimeKind,
+    /// The first time as written.
+    time_text: String,
+}
+
+fn read_first_row(
+    path: &Path,
+    header: &Header,
+    time_col: Option<usize>,
+    map: &ChannelMap,
+    rest: &[u8],
+) -> Result<FirstRow, InputError> {
+    let first_end = memchr::memchr(b'\n', rest).unwrap_or(rest.len());
+    let mut first = &rest[..first_end];
+    if let [r @ .., b'\r'] = first {
+        first = r;
+    }
+    if is_blank(first) {
+        return Err(
+            InputError::new(path, "the file has a header row but no data rows")
+                .line(2)
+                .hint("a recording needs at least two samples"),
+        );
+    }
+    let decimal_comma = header.delim != b',' && first.contains(&b',');
+    let time_text = match time_col {
+        Some(tc) => split_fields(first, header.delim)
+            .get(tc)
+            .map(|f| String::from_utf8_lossy(strip_quotes(f)).into_owned())
+            .unwrap_or_default(),
+        None => "0".into(),
+    };
+    let numeric = fast_float2::parse::<f64, _>(time_text.replace(',', ".").trim()).is_ok();
+    let time = if let (None, Some(r)) = (time_col, map.sample_rate_hz) {
+        TimeKind::Rate(r)
+    } else if numeric {
+        TimeKind::Seconds
+    } else if let Some(origin) = parse_timestamp(&time_text) {
+        TimeKind::Timestamp(origin)
+    } else {
+        return Err(InputError::new(
+            path,
+            format!("time '{time_text}' is neither seconds nor an ISO-8601 timestamp"),
+        )
+        .line(2)
+        .column(time_col.unwrap_or(0) as u64 + 1)
+        .field(&header.names[time_col.unwrap_or(0)])
+        .hint("write time in seconds (e.g. 0.0001) or as 2026-03-01T12:00:00.000123"));
+    };
+    Ok(FirstRow {
+        decimal_comma,
+        time,
+        time_text,
+    })
+}
+
+/// The format facts a reviewer sees (delimiter, decimal separator, time).
+fn header_facts(
+    header: &Header,
+    time_col: Option<usize>,
+    layout: &Layout,
+) -> Vec<(String, String)> {
+    let delimiter = match layout.delim {
+        b',' => "comma",
+        b';' => "semicolon",
+        _ => "tab",
+    };
+    let time = match (time_col, &layout.time) {
+        (None, TimeKind::Rate(r)) => format!("none: rows at {r} Hz (as given)"),
+        (Some(tc), t) => format!(
+            "{} ({})",
+            header.names[tc],
+            match t {
+                TimeKind::Timestamp(_) => "ISO-8601 timestamps",
+                _ => "seconds",
+            }
+        ),
+        (None, _) => "none".into(),
+    };
+    vec![
+        ("delimiter".into(), delimiter.into()),
+        (
+            "decimal separator".into(),
+            if layout.decimal_comma {
+                "comma"
             } else {
-                ("pu".into(), 1.0, "pu")
-            };
-            scale.push(factor);
-            slot_keys.push(*key);
-            channels.push(ChannelInfo {
-                key: *key,
-                source: header[*col].clone(),
-                index: *col,
-                unit,
-                scale: factor,
-                canonical_unit: canonical,
-            });
+                "point"
+            }
+            .into(),
+        ),
+        ("time column".into(), time),
+    ]
+}
+
+/// Every column of the file, with the key it was mapped to.
+fn source_channels(header: &Header, cols: &Columns) -> Vec<crate::model::SourceChannel> {
+    header
+        .names
+        .iter()
+        .enumerate()
+        .map(|(i, h)| crate::model::SourceChannel {
+            kind: "column",
+            number: i as u64 + 1,
+            name: h.clone(),
+            phase: String::new(),
+            circuit: String::new(),
+            unit: String::new(),
+            ps: String::new(),
+            primary: None,
+            secondary: None,
+            mapped_to: cols.mapped.iter().find(|(_, c)| *c == i).map(|(k, _)| *k),
+        })
+        .collect()
+}
+
+/// Reads until the header and the rows used to estimate the step are in
+/// `buf` (or [`PROBE_BYTES`], or the end); drops a UTF-8 byte-order mark.
+fn read_probe(file: &mut Hashing<File>, path: &Path) -> Result<(Vec<u8>, bool), InputError> {
+    let mut buf = Vec::new();
+    let mut eof = fill(file, &mut buf, 1 << 20, path)?;
+    while !eof && memchr::memchr_iter(b'\n', &buf).count() <= STEP_ESTIMATE_ROWS + 1 {
+        if buf.len() >= PROBE_BYTES {
+            break;
         }
-        if kind == RecordingKind::RmsLevel && vu != VoltageUnit::Pu {
-            return Err(InputError::new(
-                path,
-                "RMS-level channels (v_pos, p, q, ip, iq) must be in per unit",
-            )
-            .field(
-                &header[mapped
-                    .iter()
-                    .find(|(k, _)| *k == ChannelKey::VPos)
-                    .map(|(_, c)| *c)
-                    .unwrap_or(0)],
-            )
-            .hint("drop --voltage-unit, or convert the columns to per unit"));
+        eof = fill(file, &mut buf, 1 << 20, path)?;
+    }
+    if buf.starts_with(&[0xEF, 0xBB, 0xBF]) {
+        buf.drain(..3);
+    }
+    Ok((buf, eof))
+}
+
+/// Parses the first complete rows (at most [`STEP_ESTIMATE_ROWS`]) and
+/// returns the nominal step: the median step, or 1/rate.
+fn estimate_step(
+    buf: &[u8],
+    eof: bool,
+    layout: &Layout,
+    nslots: usize,
+) -> (f64, Result<(), PartError>) {
+    let mut probe = Part::default();
+    probe.reset(nslots);
+    // Complete lines only: when the first read stopped in the middle of
+    // a line (a wide file), the probe ends at the last complete one.
+    let complete = if eof {
+        buf.len()
+    } else {
+        memchr::memrchr(b'\n', buf).map_or(0, |i| i + 1)
+    };
+    let limit = memchr::memchr_iter(b'\n', buf)
+        .nth(STEP_ESTIMATE_ROWS)
+        .map(|i| i + 1)
+        .unwrap_or(complete)
+        .min(complete);
+    let parsed = parse_region(&buf[..limit], layout, &mut probe);
+    let step = if let TimeKind::Rate(r) = layout.time {
+        1.0 / r
+    } else if probe.time.len() >= 2 {
+        timebase::median_step(&probe.time).unwrap_or(f64::NAN)
+    } else {
+        f64::NAN
+    };
+    (step, parsed)
+}
+
+impl CsvSource {
+    pub fn open(path: &Path, map: &ChannelMap, opts: &ImportOptions) -> Result<Self, InputError> {
+        let mut file = Hashing::new(crate::files::open_regular(path, "recording")?);
+        let (mut buf, eof) = read_probe(&mut file, path)?;
+        if buf.iter().all(|b| b.is_ascii_whitespace()) {
+            return Err(InputError::new(path, "the file is empty")
+                .hint("a recording needs a header row and at least two data rows"));
         }
+        let header = read_header(path, &buf, eof)?;
+        let cols = header.map_columns(path, map, opts)?;
+        let units = channel_units(path, &header, &cols, map)?;
         let unmapped = header
+            .names
             .iter()
             .enumerate()
-            .filter(|(i, _)| col_slot[*i] == SKIP)
+            .filter(|(i, _)| units.col_slot[*i] == SKIP)
             .map(|(_, h)| h.clone())
             .collect();
-
-        // Look at the first data line: decimal comma, time format.
-        let data_start = (header_end + 1).min(buf.len());
-        let rest = &buf[data_start..];
-        let first_end = memchr::memchr(b'\n', rest).unwrap_or(rest.len());
-        let mut first = &rest[..first_end];
-        if let [r @ .., b'\r'] = first {
-            first = r;
-        }
-        if is_blank(first) {
-            return Err(
-                InputError::new(path, "the file has a header row but no data rows")
-                    .line(2)
-                    .hint("a recording needs at least two samples"),
-            );
-        }
-        let decimal_comma = delim != b',' && first.contains(&b',');
-        let first_fields = split_fields(first, delim);
-        let first_time_text = match time_col {
-            Some(tc) => first_fields
-                .get(tc)
-                .map(|f| String::from_utf8_lossy(strip_quotes(f)).into_owned())
-                .unwrap_or_default(),
-            None => "0".into(),
-        };
-        let time_numeric = {
-            let t = first_time_text.replace(',', ".");
-            fast_float2::parse::<f64, _>(t.trim()).is_ok()
-        };
-        let time = if let (None, Some(r)) = (time_col, map.sample_rate_hz) {
-            TimeKind::Rate(r)
-        } else if time_numeric {
-            TimeKind::Seconds
-        } else {
-            match parse_timestamp(&first_time_text) {
-                Some(origin) => TimeKind::Timestamp(origin),
-                None => {
-                    return Err(InputError::new(
-                        path,
-                        format!(
-                            "time '{first_time_text}' is neither seconds nor an ISO-8601 timestamp"
-                        ),
-                    )
-                    .line(2)
-                    .column(time_col.unwrap_or(0) as u64 + 1)
-                    .field(&header[time_col.unwrap_or(0)])
-                    .hint("write time in seconds (e.g. 0.0001) or as 2026-03-01T12:00:00.000123"))
-                }
-            }
-        };
+        let data_start = (header.end + 1).min(buf.len());
+        let first = read_first_row(path, &header, cols.time, map, &buf[data_start..])?;
         let layout = Layout {
-            delim,
-            decimal_comma,
-            ncols,
-            col_slot,
-            scale,
-            time,
+            delim: header.delim,
+            decimal_comma: first.decimal_comma,
+            ncols: header.names.len(),
+            col_slot: units.col_slot,
+            scale: units.scale,
+            time: first.time,
         };
         buf.drain(..data_start);
-
-        let source_channels = header
-            .iter()
-            .enumerate()
-            .map(|(i, h)| crate::model::SourceChannel {
-                kind: "column",
-                number: i as u64 + 1,
-                name: h.clone(),
-                phase: String::new(),
-                circuit: String::new(),
-                unit: String::new(),
-                ps: String::new(),
-                primary: None,
-                secondary: None,
-                mapped_to: mapped.iter().find(|(_, c)| *c == i).map(|(k, _)| *k),
-            })
-            .collect();
         let mut info = RecordingInfo {
-            source_channels,
+            source_channels: source_channels(&header, &cols),
             line_frequency_hz: None,
             path: path.display().to_string(),
             format: crate::model::RecordingFormat::Csv,
-            kind,
-            connection,
-            channels,
+            kind: cols.kind,
+            connection: cols.connection,
+            channels: units.channels,
             unmapped,
             samples: 0,
             sample_rate_hz: 0.0,
-            first_time: first_time_text.trim().to_string(),
+            first_time: first.time_text.trim().to_string(),
             duration_s: 0.0,
             max_step_deviation: 0.0,
             files: Vec::new(),
-            header: vec![
-                (
-                    "delimiter".into(),
-                    match delim {
-                        b',' => "comma".into(),
-                        b';' => "semicolon".into(),
-                        _ => "tab".into(),
-                    },
-                ),
-                (
-                    "decimal separator".into(),
-                    if decimal_comma { "comma" } else { "point" }.into(),
-                ),
-                (
-                    "time column".into(),
-                    match (time_col, &layout.time) {
-                        (None, TimeKind::Rate(r)) => format!("none: rows at {r} Hz (as given)"),
-                        (Some(tc), t) => format!(
-                            "{} ({})",
-                            header[tc],
-                            match t {
-                                TimeKind::Timestamp(_) => "ISO-8601 timestamps",
-                                _ => "seconds",
-                            }
-                        ),
-                        (None, _) => "none".into(),
-                    },
-                ),
-            ],
-            notes: partial_notes,
+            header: header_facts(&header, cols.time, &layout),
+            notes: cols.notes,
         };
-        if kind == RecordingKind::Waveform && connection == Connection::PhaseToPhase {
-            info.notes.push(
-                "voltages are phase-to-phase: zero sequence is unobservable, phase-to-neutral magnitudes assume V0 = 0"
-                    .into(),
-            );
+        if cols.kind == RecordingKind::Waveform && cols.connection == Connection::PhaseToPhase {
+            info.notes.push(channels::PHASE_TO_PHASE_NOTE.into());
         }
-
-        // Estimate the nominal step from the first rows.
-        let mut probe = Part::default();
-        probe.reset(slot_keys.len());
-        // Complete lines only: when the first read stopped in the middle of
-        // a line (a wide file), the probe ends at the last complete one.
-        let complete = if eof {
-            buf.len()
-        } else {
-            memchr::memrchr(b'\n', &buf).map_or(0, |i| i + 1)
-        };
-        let limit = memchr::memchr_iter(b'\n', &buf)
-            .nth(STEP_ESTIMATE_ROWS)
-            .map(|i| i + 1)
-            .unwrap_or(complete)
-            .min(complete);
-        let probe_result = parse_region(&buf[..limit], &layout, &mut probe);
-        let n = probe.time.len();
-        // The median step: robust against a gap or a repeated row among the
-        // first rows (those are reported by the time check with their line).
-        let mut steps: Vec<f64> = probe
-            .time
-            .windows(2)
-            .map(|w| w[1] - w[0])
-            .filter(|d| *d > 0.0 && d.is_finite())
-            .collect();
-        steps.sort_by(f64::total_cmp);
-        let nominal_step = if let TimeKind::Rate(r) = layout.time {
-            1.0 / r
-        } else if n >= 2 && !steps.is_empty() {
-            steps[steps.len() / 2]
-        } else {
-            f64::NAN
-        };
+        let (nominal_step, probe_result) = estimate_step(&buf, eof, &layout, units.slot_keys.len());
         let mut src = CsvSource {
             path: path.to_path_buf(),
             file: Some(file),
@@ -920,8 +1007,8 @@ impl CsvSource {
             nominal_step,
             opts: *opts,
             info,
-            slot_keys,
-            header,
+            slot_keys: units.slot_keys,
+            header: header.names,
         };
         // A bad row among the first rows is reported now, with its place,
         // rather than as a failure to find the sample rate.
@@ -1072,12 +1159,11 @@ fn read_regions(
 struct TimeCheck {
     /// No time column: rows at this rate.
     rate: Option<f64>,
-    first: Option<f64>,
-    prev: f64,
-    nominal: f64,
-    tolerance: f64,
-    max_dev: f64,
+    steps: timebase::StepCheck,
+    /// Rows checked so far.
     count: u64,
+    /// Time of the last row from the first, s.
+    last: f64,
 }
 
 impl CsvSource {
@@ -1156,12 +1242,9 @@ impl Source for CsvSource {
                 TimeKind::Rate(r) => Some(r),
                 _ => None,
             },
-            first: None,
-            prev: f64::NAN,
-            nominal: self.nominal_step,
-            tolerance: self.opts.step_tolerance,
-            max_dev: 0.0,
+            steps: timebase::StepCheck::new(self.nominal_step, self.opts.step_tolerance),
             count: 0,
+            last: f64::NAN,
         };
         let file = self.file.take();
         let first = std::mem::take(&mut self.buf);
@@ -1252,8 +1335,7 @@ impl Source for CsvSource {
                     .hint("a recording needs at least two samples"),
             );
         }
-        let first = tc.first.unwrap_or(0.0);
-        let duration = tc.prev - first;
+        let duration = tc.last;
         let mut info = self.info.clone();
         info.files = digest
             .map(|d| vec![(info.path.clone(), d)])
@@ -1261,7 +1343,7 @@ impl Source for CsvSource {
         info.samples = n;
         info.duration_s = duration;
         info.sample_rate_hz = (n - 1) as f64 / duration;
-        info.max_step_deviation = tc.max_dev;
+        info.max_step_deviation = tc.steps.max_deviation;
         Ok(info)
     }
 }
@@ -1278,48 +1360,38 @@ fn check_time(
             Some(r) => tc.count as f64 / r,
             None => *t,
         };
-        match tc.first {
-            None => {
-                tc.first = Some(raw);
+        *t = tc.steps.next(raw).map_err(|p| {
+            let line = line_base + i as u64;
+            match p {
+                timebase::StepProblem::NotIncreasing { t, prev } => (
+                    line,
+                    format!(
+                        "time {t} {} the previous sample's time {prev}",
+                        if t == prev { "repeats" } else { "goes back from" }
+                    ),
+                    "time must increase from row to row; remove duplicated rows or sort the file".into(),
+                ),
+                timebase::StepProblem::Uneven {
+                    step,
+                    nominal,
+                    deviation,
+                    tolerance,
+                } => (
+                    line,
+                    format!(
+                        "uneven sampling: step {:.6e} s against the nominal {:.6e} s ({:.1} % off, tolerance {:.1} %)",
+                        step,
+                        nominal,
+                        deviation * 100.0,
+                        tolerance * 100.0
+                    ),
+                    "the phasor analysis needs evenly sampled data: fill the gap or split the recording here; \
+                     --step-tolerance widens the accepted jitter".into(),
+                ),
             }
-            Some(_) => {
-                let dt = raw - tc.prev;
-                let line = line_base + i as u64;
-                if !(dt > 0.0) {
-                    let what = if dt == 0.0 {
-                        "repeats"
-                    } else {
-                        "goes back from"
-                    };
-                    return Err((
-                        line,
-                        format!("time {raw} {what} the previous sample's time {}", tc.prev),
-                        "time must increase from row to row; remove duplicated rows or sort the file".into(),
-                    ));
-                }
-                let dev = (dt - tc.nominal).abs() / tc.nominal;
-                if dev > tc.max_dev {
-                    tc.max_dev = dev;
-                }
-                if !(dev <= tc.tolerance) {
-                    return Err((
-                        line,
-                        format!(
-                            "uneven sampling: step {:.6e} s against the nominal {:.6e} s ({:.1} % off, tolerance {:.1} %)",
-                            dt,
-                            tc.nominal,
-                            dev * 100.0,
-                            tc.tolerance * 100.0
-                        ),
-                        "the phasor analysis needs evenly sampled data: fill the gap or split the recording here; \
-                         --step-tolerance widens the accepted jitter".into(),
-                    ));
-                }
-            }
-        }
-        tc.prev = raw;
+        })?;
+        tc.last = *t;
         tc.count += 1;
-        *t = raw - tc.first.unwrap_or(0.0);
     }
     Ok(())
 }

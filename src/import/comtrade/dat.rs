@@ -6,8 +6,9 @@
 //! (FLOAT32); a missing timestamp is 0xFFFFFFFF.
 
 use super::cfg::DataType;
-use super::{open_data, ComtradeSource, DataReader};
+use super::{open_data, ComtradeSource, DataReader, Mapped, RateSegment};
 use crate::error::InputError;
+use crate::import::timebase::{StepCheck, StepProblem};
 use crate::model::{Block, FrameSink, RecordingInfo, N_KEYS};
 use std::io::{BufRead, Read};
 
@@ -424,65 +425,198 @@ pub(super) fn probe_step(src: &ComtradeSource) -> Result<f64, InputError> {
     let mut d = Decoder::new(src)?;
     let mut raw = Raw::default();
     d.next(4096, &mut raw)?;
+    // Scaling by the (positive) unit keeps the median's place.
     let unit = stamp_unit(src);
-    let mut steps: Vec<f64> = raw
-        .stamp
-        .windows(2)
-        .map(|w| (w[1] - w[0]) * unit)
+    crate::import::timebase::median_step(&raw.stamp)
+        .map(|s| s * unit)
         .filter(|s| *s > 0.0)
-        .collect();
-    steps.sort_by(f64::total_cmp);
-    steps.get(steps.len() / 2).copied().ok_or_else(|| {
+        .ok_or_else(|| {
         InputError::new(&src.data.path, "the sampling rate is 0 (timestamps) but fewer than two increasing timestamps were found")
             .hint("the recording needs timestamps or a sampling rate")
     })
 }
 
-pub(super) fn stream(
-    src: ComtradeSource,
-    sink: &mut dyn FrameSink,
-) -> Result<RecordingInfo, InputError> {
-    let mut d = Decoder::new(&src)?;
-    let mut raw = Raw::default();
-    let nm = src.mapped.len();
-    let mut time: Vec<f64> = Vec::with_capacity(BLOCK);
-    let mut cols: Vec<Vec<f64>> = vec![Vec::with_capacity(BLOCK); nm];
-    let segs = &src.segments;
-    let seg = segs.first();
-    let mut seg_k = 0usize;
-    let mut in_use = true;
-    // Hands the collected samples to the sink as one block.
-    let flush = |time: &mut Vec<f64>, cols: &mut Vec<Vec<f64>>, sink: &mut dyn FrameSink| {
-        if time.is_empty() {
+/// Collected samples, handed to the sink block by block.
+struct Collector<'a> {
+    mapped: &'a [Mapped],
+    time: Vec<f64>,
+    cols: Vec<Vec<f64>>,
+}
+
+impl Collector<'_> {
+    fn flush(&mut self, sink: &mut dyn FrameSink) {
+        if self.time.is_empty() {
             return;
         }
         let mut channels: [Option<&[f64]>; N_KEYS] = [None; N_KEYS];
-        for (c, m) in src.mapped.iter().enumerate() {
-            channels[m.key.index()] = Some(&cols[c]);
+        for (c, m) in self.mapped.iter().enumerate() {
+            channels[m.key.index()] = Some(&self.cols[c]);
         }
-        sink.block(&Block { time, channels });
-        time.clear();
-        for c in cols.iter_mut() {
+        sink.block(&Block {
+            time: &self.time,
+            channels,
+        });
+        self.time.clear();
+        for c in self.cols.iter_mut() {
             c.clear();
         }
+    }
+}
+
+/// The time of each sample: from the rate segments, or from the
+/// timestamps × timemult, checked step by step.
+enum Clock<'a> {
+    Segments {
+        segs: &'a [RateSegment],
+        k: usize,
+    },
+    Stamps {
+        unit: f64,
+        first: Option<f64>,
+        steps: StepCheck,
+    },
+}
+
+/// Why the clock stops: an error, or (reading what can be read) uneven
+/// sampling from here on.
+enum ClockStop {
+    Error(InputError),
+    Uneven(String),
+}
+
+impl Clock<'_> {
+    /// Time of sample `sample_no` (1-based), and whether it is analysed.
+    fn at(
+        &mut self,
+        sample_no: u64,
+        stamp: f64,
+        d: &Decoder<'_>,
+        partial: bool,
+    ) -> Result<(f64, bool), ClockStop> {
+        match self {
+            Clock::Segments { segs, k } => {
+                while *k + 1 < segs.len() && sample_no > segs[*k].last {
+                    *k += 1;
+                }
+                let sg = &segs[*k];
+                let used = sg.used && sample_no >= sg.first;
+                let t = sg.t0 + (sample_no.saturating_sub(sg.first)) as f64 / sg.rate;
+                Ok((t, used))
+            }
+            Clock::Stamps { unit, first, steps } => {
+                if !stamp.is_finite() {
+                    return Err(ClockStop::Error(
+                        d.err(format!("the timestamp of sample {sample_no} is missing"))
+                            .hint("with a sampling rate of 0, every record needs its timestamp"),
+                    ));
+                }
+                let f = *first.get_or_insert(stamp);
+                let t = (stamp - f) * *unit;
+                match steps.next(t) {
+                    Ok(t) => Ok((t, true)),
+                    Err(StepProblem::NotIncreasing { .. }) => Err(ClockStop::Error(d.err(
+                        format!("timestamp of sample {sample_no} does not increase"),
+                    ))),
+                    Err(StepProblem::Uneven { step, nominal, .. }) if partial => {
+                        // Inspect: show the evenly sampled part.
+                        Err(ClockStop::Uneven(format!(
+                            "uneven sampling from sample {sample_no} on (step {step:.6e} s against {nominal:.6e} s): the samples after it are not read"
+                        )))
+                    }
+                    Err(StepProblem::Uneven { step, nominal, .. }) => Err(ClockStop::Error(
+                        d.err(format!(
+                            "uneven sampling at sample {sample_no}: step {step:.6e} s against the nominal {nominal:.6e} s"
+                        ))
+                        .hint("the phasor analysis needs evenly sampled data"),
+                    )),
+                }
+            }
+        }
+    }
+
+    fn max_deviation(&self) -> f64 {
+        match self {
+            Clock::Segments { .. } => 0.0,
+            Clock::Stamps { steps, .. } => steps.max_deviation,
+        }
+    }
+}
+
+/// One raw value of a mapped channel in canonical units.
+fn scaled(m: &Mapped, x: f64, sample_no: u64, d: &Decoder<'_>) -> Result<f64, InputError> {
+    if !x.is_finite() {
+        return Err(d.err(format!(
+            "sample {sample_no} of channel '{}' is missing",
+            m.name
+        ))
+        .hint("the phasor analysis needs every sample: cut the recording before the gap or fill it"));
+    }
+    let y = if m.digital.is_some() {
+        x
+    } else {
+        (m.a * x + m.b) * m.k
     };
-    let unit = stamp_unit(&src);
-    let nominal = 1.0 / src.info.sample_rate_hz;
-    let mut first_stamp: Option<f64> = None;
-    let mut prev_t = f64::NAN;
-    let mut prev_n: Option<u64> = None;
-    let mut max_dev: f64 = 0.0;
-    let mut index: u64 = 0;
+    if !y.is_finite() {
+        return Err(d.err(format!(
+            "sample {sample_no} of channel '{}' is not a finite number after scaling (a·x + b, ratios): {x} raw",
+            m.name
+        ))
+        .field(m.name.clone())
+        .hint("check the channel's multiplier a, offset b and primary/secondary ratios in the configuration"));
+    }
+    Ok(y)
+}
+
+/// What the sample loop found.
+struct Counted {
+    index: u64,
+    last_t: f64,
+    extra_record: bool,
+    stopped: Option<String>,
+    max_deviation: f64,
+}
+
+/// Reads every record: sample numbers in sequence, times, scaled values.
+fn read_samples(
+    src: &ComtradeSource,
+    d: &mut Decoder<'_>,
+    sink: &mut dyn FrameSink,
+) -> Result<Counted, InputError> {
+    let mut raw = Raw::default();
+    let mut out = Collector {
+        mapped: &src.mapped,
+        time: Vec::with_capacity(BLOCK),
+        cols: vec![Vec::with_capacity(BLOCK); src.mapped.len()],
+    };
+    let mut clock = if src.segments.is_empty() {
+        Clock::Stamps {
+            unit: stamp_unit(src),
+            first: None,
+            steps: StepCheck::new(1.0 / src.info.sample_rate_hz, src.opts.step_tolerance),
+        }
+    } else {
+        Clock::Segments {
+            segs: &src.segments,
+            k: 0,
+        }
+    };
     let announced = src.cfg.total_samples;
-    let mut extra_record = false;
-    let mut stopped: Option<String> = None;
-    loop {
+    let mut c = Counted {
+        index: 0,
+        last_t: f64::NAN,
+        extra_record: false,
+        stopped: None,
+        max_deviation: 0.0,
+    };
+    let mut prev_n: Option<u64> = None;
+    let mut in_use = true;
+    'blocks: loop {
         let n = d.next(BLOCK, &mut raw)?;
         if n == 0 {
             break;
         }
         for k in 0..n {
-            let sample_no = index + 1;
+            let sample_no = c.index + 1;
             let place = |e: InputError| -> InputError {
                 match raw.line.get(k) {
                     Some(l) => e.line(*l),
@@ -498,7 +632,7 @@ pub(super) fn stream(
                     )))
                     .hint("check the last endsamp of the configuration"));
                 }
-                extra_record = true;
+                c.extra_record = true;
             }
             if let Some(p) = prev_n {
                 if raw.sample[k] != p.wrapping_add(1) && raw.sample[k] != (p + 1) % (1u64 << 32) {
@@ -510,100 +644,50 @@ pub(super) fn stream(
                 }
             }
             prev_n = Some(raw.sample[k]);
-            let t = match seg {
-                Some(_) => {
-                    // Move to the segment of this sample.
-                    while seg_k + 1 < segs.len() && sample_no > segs[seg_k].last {
-                        seg_k += 1;
-                    }
-                    let sg = &segs[seg_k];
-                    let used = sg.used && sample_no >= sg.first;
-                    if used != in_use {
-                        // Hand over what was collected, then say whether
-                        // the next samples follow without a break.
-                        flush(&mut time, &mut cols, sink);
-                        if used && index > 0 {
-                            sink.gap();
-                        }
-                        in_use = used;
-                    }
-                    sg.t0 + (sample_no.saturating_sub(sg.first)) as f64 / sg.rate
-                }
-                None => {
-                    let s = raw.stamp[k];
-                    if !s.is_finite() {
-                        return Err(place(
-                            d.err(format!("the timestamp of sample {sample_no} is missing")),
-                        )
-                        .hint("with a sampling rate of 0, every record needs its timestamp"));
-                    }
-                    let f = *first_stamp.get_or_insert(s);
-                    let t = (s - f) * unit;
-                    if index > 0 {
-                        let step = t - prev_t;
-                        if !(step > 0.0) {
-                            return Err(place(d.err(format!(
-                                "timestamp of sample {sample_no} does not increase"
-                            ))));
-                        }
-                        let dev = (step - nominal).abs() / nominal;
-                        max_dev = max_dev.max(dev);
-                        if dev > src.opts.step_tolerance && src.opts.partial {
-                            // Inspect: show the evenly sampled part.
-                            stopped = Some(format!(
-                                "uneven sampling from sample {sample_no} on (step {step:.6e} s against {nominal:.6e} s): the samples after it are not read"
-                            ));
-                            break;
-                        }
-                        if dev > src.opts.step_tolerance {
-                            return Err(place(d.err(format!(
-                                "uneven sampling at sample {sample_no}: step {step:.6e} s against the nominal {nominal:.6e} s"
-                            )))
-                            .hint("the phasor analysis needs evenly sampled data"));
-                        }
-                    }
-                    t
+            let (t, used) = match clock.at(sample_no, raw.stamp[k], d, src.opts.partial) {
+                Ok(x) => x,
+                Err(ClockStop::Error(e)) => return Err(place(e)),
+                Err(ClockStop::Uneven(why)) => {
+                    c.stopped = Some(why);
+                    out.flush(sink);
+                    break 'blocks;
                 }
             };
-            prev_t = t;
+            if used != in_use {
+                // Hand over what was collected, then say whether the next
+                // samples follow without a break.
+                out.flush(sink);
+                if used && c.index > 0 {
+                    sink.gap();
+                }
+                in_use = used;
+            }
+            c.last_t = t;
+            c.index += 1;
             if !in_use {
-                index += 1;
                 continue;
             }
-            time.push(t);
-            for (c, m) in src.mapped.iter().enumerate() {
-                let x = raw.cols[c][k];
-                if !x.is_finite() {
-                    return Err(place(d.err(format!(
-                        "sample {sample_no} of channel '{}' is missing",
-                        m.name
-                    )))
-                    .hint("the phasor analysis needs every sample: cut the recording before the gap or fill it"));
-                }
-                let y = if m.digital.is_some() {
-                    x
-                } else {
-                    (m.a * x + m.b) * m.k
-                };
-                if !y.is_finite() {
-                    return Err(place(d.err(format!(
-                        "sample {sample_no} of channel '{}' is not a finite number after scaling (a·x + b, ratios): {x} raw",
-                        m.name
-                    )))
-                    .field(m.name.clone())
-                    .hint("check the channel's multiplier a, offset b and primary/secondary ratios in the configuration"));
-                }
-                cols[c].push(y);
+            out.time.push(t);
+            for (col, m) in src.mapped.iter().enumerate() {
+                let y = scaled(m, raw.cols[col][k], sample_no, d).map_err(place)?;
+                out.cols[col].push(y);
             }
-            index += 1;
         }
-        flush(&mut time, &mut cols, sink);
-        if stopped.is_some() {
-            break;
-        }
+        out.flush(sink);
     }
+    c.max_deviation = clock.max_deviation();
+    Ok(c)
+}
+
+pub(super) fn stream(
+    src: ComtradeSource,
+    sink: &mut dyn FrameSink,
+) -> Result<RecordingInfo, InputError> {
+    let mut d = Decoder::new(&src)?;
+    let c = read_samples(&src, &mut d, sink)?;
+    let (index, announced) = (c.index, src.cfg.total_samples);
     let mut short = None;
-    if stopped.is_none() && announced > 0 && index < announced {
+    if c.stopped.is_none() && announced > 0 && index < announced {
         let msg = format!(
             "the data ends after {index} samples; the configuration announces {announced} (endsamp): the data file is truncated"
         );
@@ -620,8 +704,8 @@ pub(super) fn stream(
             None => format!("the recording has {index} sample(s)"),
         }));
     }
-    let mut tolerated: Vec<String> = short.into_iter().chain(stopped).collect();
-    if extra_record {
+    let mut tolerated: Vec<String> = short.into_iter().chain(c.stopped).collect();
+    if c.extra_record {
         tolerated.push(format!(
             "the data holds one record more than the {announced} the configuration announces (endsamp counted from 0); it is read"
         ));
@@ -646,11 +730,11 @@ pub(super) fn stream(
         None => vec![(info.path.clone(), data_sha)],
     };
     info.samples = index;
-    info.duration_s = prev_t;
-    info.sample_rate_hz = match seg {
+    info.duration_s = c.last_t;
+    info.sample_rate_hz = match src.segments.first() {
         Some(s) => s.analysis_rate,
-        None => (index - 1) as f64 / prev_t,
+        None => (index - 1) as f64 / c.last_t,
     };
-    info.max_step_deviation = max_dev;
+    info.max_step_deviation = c.max_deviation;
     Ok(info)
 }

@@ -10,14 +10,13 @@
 
 pub mod cfg;
 mod dat;
+mod mapping;
 
-use super::{check_channel_set, ChannelMap, ImportOptions, Source};
+use super::{channels, ChannelMap, ImportOptions, Source};
 use crate::error::InputError;
-use crate::model::{
-    ChannelInfo, ChannelKey, Connection, CurrentUnit, FrameSink, RecordingInfo, RecordingKind,
-    SourceChannel, VoltageUnit,
-};
+use crate::model::{ChannelInfo, ChannelKey, FrameSink, RecordingInfo, SourceChannel};
 use cfg::Config;
+pub(crate) use mapping::Mapped;
 use std::io::{BufRead, BufReader, Read};
 use std::path::{Path, PathBuf};
 
@@ -37,20 +36,6 @@ struct DataPlace {
     prefix_sha256: Option<String>,
     /// What was tolerated while finding the data (non-standard markers).
     notes: Vec<String>,
-}
-
-/// A mapped channel: where its value is and how to scale it.
-#[derive(Clone, Debug)]
-pub(crate) struct Mapped {
-    pub key: ChannelKey,
-    /// Analog index (0-based) or digital index.
-    pub analog: Option<usize>,
-    pub digital: Option<usize>,
-    /// value = (a·x + b)·k
-    pub a: f64,
-    pub b: f64,
-    pub k: f64,
-    pub name: String,
 }
 
 pub struct ComtradeSource {
@@ -329,231 +314,280 @@ fn split_cff(
     }
 }
 
-fn phase_of(s: &str) -> Option<usize> {
-    match s.trim().to_ascii_uppercase().as_str() {
-        "A" | "L1" | "R" | "AN" | "L1N" => Some(0),
-        "B" | "L2" | "S" | "BN" | "L2N" => Some(1),
-        "C" | "L3" | "T" | "CN" | "L3N" => Some(2),
-        _ => None,
+/// The configuration text and where the data is.
+struct Opened {
+    text: String,
+    /// Line number of the configuration's first line in the file.
+    first_line: u64,
+    encoding: String,
+    data: DataPlace,
+    /// `.cff`: the data type its DAT section header states.
+    cff_type: Option<cfg::DataType>,
+    /// SHA-256 of the `.cfg` bytes (none for a `.cff`).
+    cfg_sha256: Option<String>,
+}
+
+/// Reads a `.cff`, or a `.cfg` with its `.dat` beside it.
+fn read_configuration(path: &Path, map: &ChannelMap) -> Result<Opened, InputError> {
+    let ext = path
+        .extension()
+        .and_then(|e| e.to_str())
+        .unwrap_or("")
+        .to_ascii_lowercase();
+    if ext == "cff" {
+        let (text, first_line, encoding, data, cff_type) = split_cff(path, map.encoding)?;
+        return Ok(Opened {
+            text,
+            first_line,
+            encoding,
+            data,
+            cff_type,
+            cfg_sha256: None,
+        });
     }
-}
-
-fn line_phase_of(s: &str) -> Option<usize> {
-    match s.trim().to_ascii_uppercase().as_str() {
-        "AB" | "L1L2" | "L12" | "RS" => Some(0),
-        "BC" | "L2L3" | "L23" | "ST" => Some(1),
-        "CA" | "L3L1" | "L31" | "TR" => Some(2),
-        _ => None,
+    let bytes = read_all(path, "configuration")?;
+    let cfg_sha256 = Some(crate::digest::sha256_bytes(&bytes));
+    let (text, encoding) = decode(&bytes, map.encoding);
+    let dp = dat_path(path);
+    if !dp.exists() {
+        return Err(
+            InputError::new(&dp, "the data file of this configuration does not exist").hint(
+                format!("{} needs {} beside it", path.display(), dp.display()),
+            ),
+        );
     }
-}
-
-enum UnitKind {
-    Voltage(f64),
-    Current(f64),
-    Pu,
-    Other,
-}
-
-fn unit_kind(u: &str) -> UnitKind {
-    match u.trim() {
-        "V" | "v" => UnitKind::Voltage(1.0),
-        "kV" | "kv" | "KV" => UnitKind::Voltage(1e3),
-        "mV" => UnitKind::Voltage(1e-3),
-        "MV" => UnitKind::Voltage(1e6),
-        "A" | "a" => UnitKind::Current(1.0),
-        "kA" | "ka" | "KA" => UnitKind::Current(1e3),
-        "mA" => UnitKind::Current(1e-3),
-        "pu" | "PU" | "p.u." => UnitKind::Pu,
-        // Spelled out, as some exports write them.
-        other => match other.to_ascii_lowercase().as_str() {
-            "volt" | "volts" => UnitKind::Voltage(1.0),
-            "kilovolt" | "kilovolts" => UnitKind::Voltage(1e3),
-            "ampere" | "amperes" | "amp" | "amps" => UnitKind::Current(1.0),
-            "kiloampere" | "kiloamperes" => UnitKind::Current(1e3),
-            _ => UnitKind::Other,
+    Ok(Opened {
+        text,
+        first_line: 1,
+        encoding,
+        data: DataPlace {
+            path: dp,
+            offset: 0,
+            len: None,
+            first_line: 1,
+            in_cff: false,
+            prefix_sha256: None,
+            notes: Vec::new(),
         },
+        cff_type: None,
+        cfg_sha256,
+    })
+}
+
+/// The data type agrees with a `.cff`'s section header and the revision.
+fn check_data_type(
+    path: &Path,
+    cfg: &Config,
+    cff_type: Option<cfg::DataType>,
+) -> Result<(), InputError> {
+    if let Some(dt) = cff_type {
+        if dt != cfg.data_type {
+            return Err(InputError::new(
+                path,
+                format!(
+                    "the DAT section is {} but the configuration says {}",
+                    dt.name(),
+                    cfg.data_type.name()
+                ),
+            ));
+        }
     }
+    if cfg.revision != cfg::Revision::R2013
+        && matches!(
+            cfg.data_type,
+            cfg::DataType::Binary32 | cfg::DataType::Float32
+        )
+    {
+        return Err(InputError::new(
+            path,
+            format!(
+                "{} data needs revision 2013 (the file says {})",
+                cfg.data_type.name(),
+                cfg.revision.year()
+            ),
+        ));
+    }
+    Ok(())
+}
+
+/// Skew (µs) shifts a channel's samples in time; the analysis treats
+/// channels as simultaneous, so say how large the angle error is.
+fn skew_notes(cfg: &Config, mapped: &[Mapped]) -> Vec<String> {
+    let mut notes = Vec::new();
+    for i in mapped.iter().filter_map(|m| m.analog) {
+        let skew = cfg.analogs[i].skew;
+        if skew != 0.0 && skew.is_finite() {
+            let deg = 360.0 * cfg.line_frequency.max(0.0) * skew * 1e-6;
+            notes.push(format!(
+                "channel '{}' has a skew of {skew} µs, not compensated: its phase angle is off by {deg:.3}° at {} Hz",
+                cfg.analogs[i].name, cfg.line_frequency
+            ));
+        }
+    }
+    notes
+}
+
+/// The format facts a reviewer sees (station, revision, sampling …).
+fn header_facts(
+    cfg: &Config,
+    data: &DataPlace,
+    encoding: &str,
+    mapped: &[Mapped],
+) -> Vec<(String, String)> {
+    let revision = format!(
+        "{}{}",
+        cfg.revision.year(),
+        if cfg.revision_implied {
+            " (no year given: 1991)"
+        } else {
+            ""
+        }
+    );
+    let sampling = if cfg.rates.is_empty() {
+        format!(
+            "from timestamps × timemult {} ({} samples)",
+            cfg.timemult, cfg.total_samples
+        )
+    } else {
+        cfg.rates
+            .iter()
+            .map(|(r, e)| format!("{r} Hz to sample {e}"))
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    let mut header = vec![
+        ("station".to_string(), cfg.station.clone()),
+        ("device".to_string(), cfg.device.clone()),
+        ("revision".to_string(), revision),
+        ("data type".to_string(), cfg.data_type.name().to_string()),
+        ("data file".to_string(), data.path.display().to_string()),
+        (
+            "channels".to_string(),
+            format!(
+                "{} analog, {} digital",
+                cfg.analogs.len(),
+                cfg.digitals.len()
+            ),
+        ),
+        (
+            "line frequency".to_string(),
+            format!("{} Hz", cfg.line_frequency),
+        ),
+        ("sampling".to_string(), sampling),
+        ("first sample".to_string(), cfg.first_time.clone()),
+        ("trigger".to_string(), cfg.trigger_time.clone()),
+        ("encoding".to_string(), encoding.to_string()),
+    ];
+    if let Some((tc, lc)) = &cfg.time_code {
+        header.push(("time code".to_string(), format!("{tc} (local {lc})")));
+    }
+    if let Some((q, l)) = &cfg.time_quality {
+        header.push(("time quality".to_string(), format!("{q}, leap second {l}")));
+    }
+    let secondary: Vec<String> = mapped
+        .iter()
+        .filter_map(|m| m.analog)
+        .filter(|i| !cfg.analogs[*i].is_primary)
+        .map(|i| cfg.analogs[i].name.clone())
+        .collect();
+    header.push((
+        "values".to_string(),
+        if secondary.is_empty() {
+            "primary values (as recorded)".to_string()
+        } else {
+            format!(
+                "primary values: {} converted from secondary with primary/secondary",
+                secondary.join(", ")
+            )
+        },
+    ));
+    header
+}
+
+/// The mapped channels as the recording model describes them.
+fn channel_infos(cfg: &Config, mapped: &[Mapped]) -> Vec<ChannelInfo> {
+    mapped
+        .iter()
+        .map(|m| ChannelInfo {
+            key: m.key,
+            source: m.name.clone(),
+            index: m.analog.or(m.digital).unwrap_or(0) + 1,
+            unit: match (m.analog, m.key) {
+                (_, ChannelKey::Status) => "digital 1 = connected".to_string(),
+                (Some(i), _) => format!(
+                    "{} ({})",
+                    cfg.analogs[i].unit,
+                    if cfg.analogs[i].is_primary { "P" } else { "S" }
+                ),
+                (None, _) => String::new(),
+            },
+            scale: m.a * m.k,
+            canonical_unit: m.canonical,
+        })
+        .collect()
+}
+
+/// Every channel of the configuration, with the key it was mapped to.
+fn source_channels(cfg: &Config, mapped: &[Mapped]) -> Vec<SourceChannel> {
+    let key_of = |analog: Option<usize>, digital: Option<usize>| {
+        mapped
+            .iter()
+            .find(|m| {
+                (analog.is_some() && m.analog == analog)
+                    || (digital.is_some() && m.digital == digital)
+            })
+            .map(|m| m.key)
+    };
+    cfg.analogs
+        .iter()
+        .enumerate()
+        .map(|(i, a)| SourceChannel {
+            kind: "analog",
+            number: a.index as u64,
+            name: a.name.clone(),
+            phase: a.phase.clone(),
+            circuit: a.circuit.clone(),
+            unit: a.unit.clone(),
+            ps: if a.is_primary { "P" } else { "S" }.into(),
+            primary: Some(a.primary),
+            secondary: Some(a.secondary),
+            mapped_to: key_of(Some(i), None),
+        })
+        .chain(cfg.digitals.iter().enumerate().map(|(i, d)| SourceChannel {
+            kind: "digital",
+            number: d.index as u64,
+            name: d.name.clone(),
+            phase: d.phase.clone(),
+            circuit: d.circuit.clone(),
+            unit: String::new(),
+            ps: String::new(),
+            primary: None,
+            secondary: None,
+            mapped_to: key_of(None, Some(i)),
+        }))
+        .collect()
 }
 
 impl ComtradeSource {
     pub fn open(path: &Path, map: &ChannelMap, opts: &ImportOptions) -> Result<Self, InputError> {
-        let ext = path
-            .extension()
-            .and_then(|e| e.to_str())
-            .unwrap_or("")
-            .to_ascii_lowercase();
-        let mut cfg_sha256 = None;
-        let (text, first_line, encoding, data, cff_type) = if ext == "cff" {
-            let (t, l, e, d, dt) = split_cff(path, map.encoding)?;
-            (t, l, e, d, dt)
-        } else {
-            let bytes = read_all(path, "configuration")?;
-            cfg_sha256 = Some(crate::digest::sha256_bytes(&bytes));
-            let (t, e) = decode(&bytes, map.encoding);
-            let dp = dat_path(path);
-            if !dp.exists() {
-                return Err(InputError::new(
-                    &dp,
-                    "the data file of this configuration does not exist",
-                )
-                .hint(format!(
-                    "{} needs {} beside it",
-                    path.display(),
-                    dp.display()
-                )));
-            }
-            (
-                t,
-                1,
-                e,
-                DataPlace {
-                    path: dp,
-                    offset: 0,
-                    len: None,
-                    first_line: 1,
-                    in_cff: false,
-                    prefix_sha256: None,
-                    notes: Vec::new(),
-                },
-                None,
-            )
-        };
-        let cfg = cfg::parse(path, &text, first_line)?;
-        if let Some(dt) = cff_type {
-            if dt != cfg.data_type {
-                return Err(InputError::new(
-                    path,
-                    format!(
-                        "the DAT section is {} but the configuration says {}",
-                        dt.name(),
-                        cfg.data_type.name()
-                    ),
-                ));
-            }
-        }
-        if cfg.revision != cfg::Revision::R2013
-            && matches!(
-                cfg.data_type,
-                cfg::DataType::Binary32 | cfg::DataType::Float32
-            )
-        {
-            return Err(InputError::new(
-                path,
-                format!(
-                    "{} data needs revision 2013 (the file says {})",
-                    cfg.data_type.name(),
-                    cfg.revision.year()
-                ),
-            ));
-        }
+        let opened = read_configuration(path, map)?;
+        let data = opened.data;
+        let cfg = cfg::parse(path, &opened.text, opened.first_line)?;
+        check_data_type(path, &cfg, opened.cff_type)?;
         let (segments, rate_note) = rate_segments(&cfg);
         // A truncated data file is the real problem, whatever the mapping.
-        let (mut mapped, connection, mut notes) = resolve(path, &cfg, map, opts.partial)
-            .map_err(|e| truncation(&cfg, &data).unwrap_or(e))?;
+        let truncated = |e: InputError| truncation(&cfg, &data).unwrap_or(e);
+        let (mut mapped, connection, mut notes) =
+            mapping::resolve(path, &cfg, map, opts.partial).map_err(truncated)?;
         notes.extend(cfg.warnings.iter().cloned());
         notes.extend(data.notes.iter().cloned());
         notes.extend(rate_note);
-        // Skew (µs) shifts a channel's samples in time; the analysis treats
-        // channels as simultaneous, so say how large the angle error is.
-        for m in &mapped {
-            if let Some(i) = m.analog {
-                let skew = cfg.analogs[i].skew;
-                if skew != 0.0 && skew.is_finite() {
-                    let deg = 360.0 * cfg.line_frequency.max(0.0) * skew * 1e-6;
-                    notes.push(format!(
-                        "channel '{}' has a skew of {skew} µs, not compensated: its phase angle is off by {deg:.3}° at {} Hz",
-                        cfg.analogs[i].name, cfg.line_frequency
-                    ));
-                }
-            }
-        }
-        let mut keys: Vec<ChannelKey> = mapped.iter().map(|m| m.key).collect();
-        if opts.partial {
-            let (drop, why) = super::partial_channel_set(&keys, connection);
-            mapped.retain(|m| !drop.contains(&m.key));
-            keys.retain(|k| !drop.contains(k));
-            notes.extend(why);
-        }
-        if let Err(e) = check_channel_set(path, &keys, connection, opts.partial) {
-            // A truncated data file is the real problem, whatever the mapping.
-            return Err(truncation(&cfg, &data).unwrap_or(e));
-        }
-        let kind = if keys.contains(&ChannelKey::VPos) {
-            RecordingKind::RmsLevel
-        } else {
-            RecordingKind::Waveform
-        };
-        let mut header = vec![
-            ("station".to_string(), cfg.station.clone()),
-            ("device".to_string(), cfg.device.clone()),
-            (
-                "revision".to_string(),
-                format!(
-                    "{}{}",
-                    cfg.revision.year(),
-                    if cfg.revision_implied {
-                        " (no year given: 1991)"
-                    } else {
-                        ""
-                    }
-                ),
-            ),
-            ("data type".to_string(), cfg.data_type.name().to_string()),
-            ("data file".to_string(), data.path.display().to_string()),
-            (
-                "channels".to_string(),
-                format!(
-                    "{} analog, {} digital",
-                    cfg.analogs.len(),
-                    cfg.digitals.len()
-                ),
-            ),
-            (
-                "line frequency".to_string(),
-                format!("{} Hz", cfg.line_frequency),
-            ),
-            (
-                "sampling".to_string(),
-                if cfg.rates.is_empty() {
-                    format!(
-                        "from timestamps × timemult {} ({} samples)",
-                        cfg.timemult, cfg.total_samples
-                    )
-                } else {
-                    cfg.rates
-                        .iter()
-                        .map(|(r, e)| format!("{r} Hz to sample {e}"))
-                        .collect::<Vec<_>>()
-                        .join(", ")
-                },
-            ),
-            ("first sample".to_string(), cfg.first_time.clone()),
-            ("trigger".to_string(), cfg.trigger_time.clone()),
-            ("encoding".to_string(), encoding.to_string()),
-        ];
-        if let Some((tc, lc)) = &cfg.time_code {
-            header.push(("time code".to_string(), format!("{tc} (local {lc})")));
-        }
-        if let Some((q, l)) = &cfg.time_quality {
-            header.push(("time quality".to_string(), format!("{q}, leap second {l}")));
-        }
-        let secondary: Vec<String> = mapped
-            .iter()
-            .filter_map(|m| m.analog)
-            .filter(|i| !cfg.analogs[*i].is_primary)
-            .map(|i| cfg.analogs[i].name.clone())
-            .collect();
-        header.push((
-            "values".to_string(),
-            if secondary.is_empty() {
-                "primary values (as recorded)".to_string()
-            } else {
-                format!(
-                    "primary values: {} converted from secondary with primary/secondary",
-                    secondary.join(", ")
-                )
-            },
-        ));
+        notes.extend(skew_notes(&cfg, &mapped));
+        let keys: Vec<ChannelKey> = mapped.iter().map(|m| m.key).collect();
+        let set = channels::settle_channel_set(path, &keys, connection, opts.partial)
+            .map_err(truncated)?;
+        mapped.retain(|m| !set.dropped.contains(&m.key));
+        notes.extend(set.notes);
         let used: Vec<String> = mapped.iter().map(|m| m.name.clone()).collect();
         let unmapped = cfg
             .analogs
@@ -562,99 +596,26 @@ impl ComtradeSource {
             .chain(cfg.digitals.iter().map(|d| d.name.clone()))
             .filter(|n| !used.contains(n))
             .collect();
-        let channels = mapped
-            .iter()
-            .map(|m| {
-                let (unit, canonical) = match (m.analog, m.key) {
-                    (_, ChannelKey::Status) => ("digital 1 = connected".to_string(), "0/1"),
-                    (Some(i), k) => (
-                        format!(
-                            "{} ({})",
-                            cfg.analogs[i].unit,
-                            if cfg.analogs[i].is_primary { "P" } else { "S" }
-                        ),
-                        if k.is_voltage()
-                            && !matches!(unit_kind(&cfg.analogs[i].unit), UnitKind::Pu)
-                        {
-                            "V"
-                        } else if k.is_phase_current()
-                            && !matches!(unit_kind(&cfg.analogs[i].unit), UnitKind::Pu)
-                        {
-                            "A"
-                        } else {
-                            "pu"
-                        },
-                    ),
-                    (None, _) => (String::new(), "pu"),
-                };
-                ChannelInfo {
-                    key: m.key,
-                    source: m.name.clone(),
-                    index: m.analog.or(m.digital).unwrap_or(0) + 1,
-                    unit,
-                    scale: m.a * m.k,
-                    canonical_unit: canonical,
-                }
-            })
-            .collect();
         let sample_rate_hz = segments
             .iter()
             .find(|s| s.used)
             .map_or(f64::NAN, |s| s.analysis_rate);
-        let key_of = |analog: Option<usize>, digital: Option<usize>| {
-            mapped
-                .iter()
-                .find(|m| {
-                    (analog.is_some() && m.analog == analog)
-                        || (digital.is_some() && m.digital == digital)
-                })
-                .map(|m| m.key)
-        };
-        let source_channels = cfg
-            .analogs
-            .iter()
-            .enumerate()
-            .map(|(i, a)| SourceChannel {
-                kind: "analog",
-                number: a.index as u64,
-                name: a.name.clone(),
-                phase: a.phase.clone(),
-                circuit: a.circuit.clone(),
-                unit: a.unit.clone(),
-                ps: if a.is_primary { "P" } else { "S" }.into(),
-                primary: Some(a.primary),
-                secondary: Some(a.secondary),
-                mapped_to: key_of(Some(i), None),
-            })
-            .chain(cfg.digitals.iter().enumerate().map(|(i, d)| SourceChannel {
-                kind: "digital",
-                number: d.index as u64,
-                name: d.name.clone(),
-                phase: d.phase.clone(),
-                circuit: d.circuit.clone(),
-                unit: String::new(),
-                ps: String::new(),
-                primary: None,
-                secondary: None,
-                mapped_to: key_of(None, Some(i)),
-            }))
-            .collect();
-        let mut info = RecordingInfo {
-            source_channels,
+        let info = RecordingInfo {
+            source_channels: source_channels(&cfg, &mapped),
             line_frequency_hz: Some(cfg.line_frequency)
                 .filter(|f| f.is_finite() && *f >= 10.0 && *f <= 1000.0),
             path: path.display().to_string(),
             format: crate::model::RecordingFormat::Comtrade,
-            kind,
+            kind: set.kind,
             connection,
-            channels,
+            channels: channel_infos(&cfg, &mapped),
             unmapped,
             samples: cfg.total_samples,
             sample_rate_hz,
             first_time: cfg.first_time.clone(),
             duration_s: f64::NAN,
             max_step_deviation: 0.0,
-            header,
+            header: header_facts(&cfg, &data, &opened.encoding, &mapped),
             notes,
             files: Vec::new(),
         };
@@ -662,374 +623,18 @@ impl ComtradeSource {
             cfg,
             data,
             mapped,
-            info: info.clone(),
+            info,
             opts: *opts,
-            cfg_sha256,
+            cfg_sha256: opened.cfg_sha256,
             segments,
         };
         if src.cfg.rates.is_empty() {
             // Timestamp-based: estimate the nominal step from the first records.
             let step = dat::probe_step(&src)?;
-            info.sample_rate_hz = 1.0 / step;
-            src.info = info;
+            src.info.sample_rate_hz = 1.0 / step;
         }
         Ok(src)
     }
-}
-
-/// One analog channel as a message names it: `'name' (#n, phase P, unit U)`.
-fn describe(a: &cfg::Analog) -> String {
-    format!(
-        "'{}' (#{}, phase '{}', unit '{}')",
-        a.name, a.index, a.phase, a.unit
-    )
-}
-
-/// Channels found for a set of keys: (phase, analog index, sign), the
-/// connection they imply, and how they were found.
-type Chosen = (Vec<(usize, usize, f64)>, Connection, &'static str);
-
-/// A pick of a key: analog or digital channel index, and a sign.
-type Pick = (ChannelKey, Option<usize>, Option<usize>, f64);
-
-/// Resolves the channel map against the configuration.
-///
-/// Explicit names (or `#n`, the channel number) come first. Then, for
-/// voltages and currents each: the phase field and a voltage/current unit
-/// (`A`/`B`/`C`, `L1`… or `AB`/`BC`/`CA`), else channel names (`Ua`, `IL2`,
-/// `Uab`, `U21` …); two phase-to-phase voltages suffice. A digital channel
-/// named `status` is the unit's status. With `opts.partial`, a set that is
-/// ambiguous is left out with a note instead of an error.
-fn resolve(
-    path: &Path,
-    cfg: &Config,
-    map: &ChannelMap,
-    partial: bool,
-) -> Result<(Vec<Mapped>, Connection, Vec<String>), InputError> {
-    let mut notes = Vec::new();
-    let number = |name: &str| -> Option<u32> {
-        name.trim()
-            .strip_prefix('#')
-            .and_then(|n| n.trim().parse().ok())
-    };
-    let find_analog = |name: &str| -> Option<usize> {
-        if let Some(n) = number(name) {
-            return cfg.analogs.iter().position(|a| a.index == n);
-        }
-        cfg.analogs.iter().position(|a| a.name == name).or_else(|| {
-            cfg.analogs
-                .iter()
-                .position(|a| a.name.eq_ignore_ascii_case(name.trim()))
-        })
-    };
-    let find_digital = |name: &str| -> Option<usize> {
-        if let Some(n) = number(name) {
-            return cfg.digitals.iter().position(|d| d.index == n);
-        }
-        cfg.digitals
-            .iter()
-            .position(|d| d.name == name)
-            .or_else(|| {
-                cfg.digitals
-                    .iter()
-                    .position(|d| d.name.eq_ignore_ascii_case(name.trim()))
-            })
-    };
-    let names = || {
-        let mut v: Vec<String> = cfg.analogs.iter().take(24).map(describe).collect();
-        if cfg.analogs.len() > 24 {
-            v.push(format!("… {} more analog channels", cfg.analogs.len() - 24));
-        }
-        v.extend(
-            cfg.digitals
-                .iter()
-                .take(8)
-                .map(|d| format!("'{}' (digital #{})", d.name, d.index)),
-        );
-        if cfg.digitals.len() > 8 {
-            v.push(format!(
-                "… {} more digital channels",
-                cfg.digitals.len() - 8
-            ));
-        }
-        v.join(", ")
-    };
-    let mut picks: Vec<Pick> = Vec::new();
-    for (key, name) in &map.keys {
-        if *key == ChannelKey::Status {
-            match (find_digital(name), find_analog(name)) {
-                (Some(d), _) => picks.push((*key, None, Some(d), 1.0)),
-                (None, Some(a)) => picks.push((*key, Some(a), None, 1.0)),
-                (None, None) => {
-                    return Err(InputError::new(
-                        path,
-                        format!("no channel named '{name}' for 'status'"),
-                    )
-                    .field(name.clone())
-                    .hint(format!("channels are: {}", names())))
-                }
-            }
-        } else {
-            match find_analog(name) {
-                Some(a) => picks.push((*key, Some(a), None, 1.0)),
-                None => {
-                    return Err(InputError::new(
-                        path,
-                        format!("no analog channel named '{name}' for '{key}'"),
-                    )
-                    .field(name.clone())
-                    .hint(format!(
-                        "give a channel name or its number as #n; channels are: {}",
-                        names()
-                    )))
-                }
-            }
-        }
-    }
-    let mut connection = map.connection.unwrap_or(Connection::PhaseToNeutral);
-    let has = |picks: &Vec<Pick>, k: ChannelKey| picks.iter().any(|p| p.0 == k);
-    let rms = has(&picks, ChannelKey::VPos);
-    if !rms {
-        for want_voltage in [true, false] {
-            let keys = if want_voltage {
-                [ChannelKey::Va, ChannelKey::Vb, ChannelKey::Vc]
-            } else {
-                [ChannelKey::Ia, ChannelKey::Ib, ChannelKey::Ic]
-            };
-            if keys.iter().any(|k| has(&picks, *k)) {
-                continue;
-            }
-            let fits = |a: &cfg::Analog| match unit_kind(&a.unit) {
-                UnitKind::Voltage(_) => want_voltage,
-                UnitKind::Current(_) => !want_voltage,
-                _ => false,
-            };
-            // Candidates per phase (or phase pair): by the phase field, by name.
-            let mut by_field: [Vec<usize>; 3] = Default::default();
-            let mut line_field: [Vec<usize>; 3] = Default::default();
-            let mut by_name: [Vec<usize>; 3] = Default::default();
-            let mut line_name: [Vec<(usize, f64)>; 3] = Default::default();
-            let q = if want_voltage { 'v' } else { 'i' };
-            for (i, a) in cfg.analogs.iter().enumerate() {
-                if !fits(a) {
-                    continue;
-                }
-                if let Some(p) = phase_of(&a.phase) {
-                    by_field[p].push(i);
-                } else if want_voltage && line_phase_of(&a.phase).is_some() {
-                    line_field[line_phase_of(&a.phase).unwrap_or(0)].push(i);
-                }
-                if let Some((qq, p)) = super::named_phase(&a.name) {
-                    if qq == q {
-                        by_name[p].push(i);
-                    }
-                }
-                if want_voltage {
-                    if let Some((p, sign)) = super::named_line(&a.name) {
-                        line_name[p].push((i, sign));
-                    }
-                }
-            }
-            let one_each = |set: &[Vec<usize>; 3]| set.iter().all(|v| v.len() == 1);
-            let ambiguous = |set: &[Vec<usize>; 3]| set.iter().any(|v| v.len() > 1);
-            let line_pick = |set: &[Vec<(usize, f64)>; 3]| -> Option<Vec<(usize, usize, f64)>> {
-                if set.iter().any(|v| v.len() > 1) {
-                    return None;
-                }
-                let got: Vec<(usize, usize, f64)> = (0..3)
-                    .filter_map(|p| set[p].first().map(|(i, s)| (p, *i, *s)))
-                    .collect();
-                (got.len() >= 2).then_some(got)
-            };
-            let as_signed = |set: &[Vec<usize>; 3]| -> [Vec<(usize, f64)>; 3] {
-                [0, 1, 2].map(|p| set[p].iter().map(|i| (*i, 1.0)).collect())
-            };
-            let mut chosen: Option<Chosen> = None;
-            if one_each(&by_field) {
-                chosen = Some((
-                    (0..3).map(|p| (p, by_field[p][0], 1.0)).collect(),
-                    Connection::PhaseToNeutral,
-                    "phase field",
-                ));
-            } else if want_voltage && by_field.iter().all(|v| v.is_empty()) {
-                if let Some(l) = line_pick(&as_signed(&line_field)) {
-                    chosen = Some((l, Connection::PhaseToPhase, "phase field"));
-                }
-            }
-            if chosen.is_none() && !ambiguous(&by_field) {
-                if one_each(&by_name) {
-                    chosen = Some((
-                        (0..3).map(|p| (p, by_name[p][0], 1.0)).collect(),
-                        Connection::PhaseToNeutral,
-                        "channel names",
-                    ));
-                } else if want_voltage && by_name.iter().all(|v| v.is_empty()) {
-                    if let Some(l) = line_pick(&line_name) {
-                        chosen = Some((l, Connection::PhaseToPhase, "channel names"));
-                    }
-                }
-            }
-            match chosen {
-                Some((list, conn, how)) => {
-                    for (p, i, sign) in &list {
-                        picks.push((keys[*p], Some(*i), None, *sign));
-                    }
-                    if want_voltage {
-                        connection = map.connection.unwrap_or(conn);
-                    }
-                    let desc: Vec<String> = list
-                        .iter()
-                        .map(|(p, i, sign)| {
-                            format!(
-                                "{} ← {}'{}'",
-                                keys[*p].name(),
-                                if *sign < 0.0 { "minus " } else { "" },
-                                cfg.analogs[*i].name
-                            )
-                        })
-                        .collect();
-                    notes.push(format!(
-                        "channels found by their {how}: {}",
-                        desc.join(", ")
-                    ));
-                }
-                None => {
-                    let set = if ambiguous(&by_field) {
-                        &by_field
-                    } else {
-                        &by_name
-                    };
-                    if ambiguous(set) {
-                        let list: Vec<String> = set
-                            .iter()
-                            .flatten()
-                            .map(|i| describe(&cfg.analogs[*i]))
-                            .collect();
-                        let msg = format!(
-                            "several {} channels per phase: {}",
-                            if want_voltage { "voltage" } else { "current" },
-                            list.join(", ")
-                        );
-                        let hint = format!(
-                            "choose with the plan's channels block or --map {}=NAME (or #n) ...",
-                            keys[0].name()
-                        );
-                        if partial {
-                            notes.push(format!("{msg}: not mapped ({hint})"));
-                        } else {
-                            return Err(InputError::new(path, msg).hint(hint));
-                        }
-                    }
-                }
-            }
-        }
-    }
-    if !has(&picks, ChannelKey::Status) {
-        if let Some(d) = cfg
-            .digitals
-            .iter()
-            .position(|d| d.name.trim().eq_ignore_ascii_case("status"))
-        {
-            picks.push((ChannelKey::Status, None, Some(d), 1.0));
-        }
-    }
-    let mut mapped = Vec::new();
-    for (key, analog, digital, sign) in picks {
-        if let Some(d) = digital {
-            mapped.push(Mapped {
-                key,
-                analog: None,
-                digital: Some(d),
-                a: 1.0,
-                b: 0.0,
-                k: 1.0,
-                name: cfg.digitals[d].name.clone(),
-            });
-            continue;
-        }
-        let Some(i) = analog else { continue };
-        let a = &cfg.analogs[i];
-        let ps = if a.is_primary {
-            1.0
-        } else {
-            a.primary / a.secondary
-        };
-        let override_unit = if key.is_voltage() {
-            map.voltage_unit
-                .map(|u| (u.factor(), u == VoltageUnit::Pu, u.label()))
-        } else if key.is_phase_current() {
-            map.current_unit
-                .map(|u| (u.factor(), u == CurrentUnit::Pu, u.label()))
-        } else {
-            None
-        };
-        let factor = match (unit_kind(&a.unit), override_unit) {
-            (_, Some((f, is_pu, label))) => {
-                if !a.unit.trim().is_empty() && !a.unit.trim().eq_ignore_ascii_case(label) {
-                    notes.push(format!(
-                        "channel '{}' says unit '{}'; the mapping's unit {label} is used",
-                        a.name, a.unit
-                    ));
-                }
-                if is_pu {
-                    1.0
-                } else {
-                    f
-                }
-            }
-            (UnitKind::Voltage(f), None) if key.is_voltage() => f,
-            (UnitKind::Current(f), None) if key.is_phase_current() => f,
-            (UnitKind::Pu, None) => 1.0,
-            (UnitKind::Other, None) if key.is_rms_level() => 1.0,
-            (_, None) => {
-                return Err(InputError::new(
-                    path,
-                    format!(
-                        "channel '{}' has unit '{}', which does not fit '{key}'",
-                        a.name, a.unit
-                    ),
-                )
-                .line(a.line)
-                .column(5)
-                .hint(
-                    "map the right channel, or give the unit in the mapping (voltage/current unit)",
-                ));
-            }
-        };
-        let k = ps * factor * sign;
-        if !(k.is_finite() && (a.a * k).is_finite() && (a.b * k).is_finite()) || k == 0.0 {
-            return Err(InputError::new(
-                path,
-                format!(
-                    "channel '{}': the scaling a = {}, b = {}{} gives no finite values",
-                    a.name,
-                    a.a,
-                    a.b,
-                    if a.is_primary {
-                        String::new()
-                    } else {
-                        format!(", primary/secondary = {}/{}", a.primary, a.secondary)
-                    }
-                ),
-            )
-            .line(a.line)
-            .field(a.name.clone())
-            .hint("correct the channel's multiplier, offset or ratios in the configuration"));
-        }
-        mapped.push(Mapped {
-            key,
-            analog: Some(i),
-            digital: None,
-            a: a.a,
-            b: a.b,
-            k,
-            name: a.name.clone(),
-        });
-    }
-    if connection == Connection::PhaseToPhase {
-        notes.push("voltages are phase-to-phase: zero sequence is unobservable, phase-to-neutral magnitudes assume V0 = 0".into());
-    }
-    Ok((mapped, connection, notes))
 }
 
 impl Source for ComtradeSource {
