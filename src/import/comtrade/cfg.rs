@@ -193,16 +193,12 @@ fn num<T: std::str::FromStr>(
     })
 }
 
-/// Parses a configuration held in `text`. `first_line` is the line number of
-/// its first line in the file (1, or later inside a `.cff`).
-pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputError> {
-    let mut ls = Lines {
-        path,
-        lines: text.split('\n').collect(),
-        pos: 0,
-        first_line,
-    };
-    // 7.4.2 station name, recording device id, revision year.
+/// 7.4.2 station name, recording device id, revision year.
+fn station_line<'a>(
+    ls: &mut Lines<'a>,
+    warnings: &mut Vec<String>,
+) -> Result<(&'a str, Revision, bool), InputError> {
+    let path = ls.path;
     let (l1, s1) = ls.next("station")?;
     let f = fields(s1);
     if f.len() < 2 {
@@ -210,8 +206,7 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
             InputError::new(path, "line 1 needs 'station_name,rec_dev_id[,rev_year]'").line(l1),
         );
     }
-    let mut warnings = Vec::new();
-    let (mut revision, mut implied) = match f.get(2) {
+    let (revision, implied) = match f.get(2) {
         None | Some(&"") => (Revision::R1991, true),
         Some(y) => match Revision::parse(y) {
             Some(r) => (r, false),
@@ -237,7 +232,12 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
             }
         },
     };
-    // 7.4.3 channel counts: TT,##A,##D (each bounded before any sum).
+    Ok((s1, revision, implied))
+}
+
+/// 7.4.3 channel counts: TT,##A,##D (each bounded before any sum).
+fn channel_counts(ls: &mut Lines<'_>) -> Result<(u64, u64), InputError> {
+    let path = ls.path;
     let (l2, s2) = ls.next("channel count")?;
     let f = fields(s2);
     if f.len() != 3 {
@@ -283,136 +283,168 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
         .line(l2)
         .hint("TT must be the sum of ##A and ##D"));
     }
-    // 7.4.4 analog channel lines.
-    let mut analogs = Vec::with_capacity((na as usize).min(1024));
-    for k in 0..na {
-        let (ln, s) = ls.next(&format!("analog channel {}", k + 1))?;
-        let f = fields(s);
-        if k == 0 && implied && f.len() == 13 {
-            // No revision year, but channel lines of the 1999 layout.
-            revision = Revision::R1999;
-            implied = false;
-            warnings.push(
-                "no revision year on line 1; the channel lines have the 1999 layout, so it is read as 1999"
-                    .into(),
+    Ok((na, nd))
+}
+
+/// The revision as the channel lines show it, and whether the year was
+/// absent from line 1.
+struct Layout {
+    revision: Revision,
+    implied: bool,
+}
+
+/// 7.4.4 one analog channel line (the first may show the 1999 layout in a
+/// file without a revision year).
+fn analog_line(
+    ls: &mut Lines<'_>,
+    k: u64,
+    layout: &mut Layout,
+    warnings: &mut Vec<String>,
+) -> Result<Analog, InputError> {
+    let path = ls.path;
+    let (ln, s) = ls.next(&format!("analog channel {}", k + 1))?;
+    let f = fields(s);
+    if k == 0 && layout.implied && f.len() == 13 {
+        // No revision year, but channel lines of the 1999 layout.
+        layout.revision = Revision::R1999;
+        layout.implied = false;
+        warnings.push(
+            "no revision year on line 1; the channel lines have the 1999 layout, so it is read as 1999"
+                .into(),
+        );
+    }
+    let revision = layout.revision;
+    let want = if revision == Revision::R1991 { 10 } else { 13 };
+    if f.len() < 10 || f.len() > 13 || (revision != Revision::R1991 && f.len() != 13) {
+        return Err(InputError::new(
+            path,
+            format!(
+                "analog channel line has {} fields; expected {want} for revision {} (An,ch_id,ph,ccbm,uu,a,b,skew,min,max{})",
+                f.len(),
+                revision.year(),
+                if want == 13 { ",primary,secondary,PS" } else { "" }
+            ),
+        )
+        .line(ln)
+        .hint("is a digital channel listed among the analog ones? Check ##A on line 2"));
+    }
+    let opt = |i: usize, d: f64, what: &str| -> Result<f64, InputError> {
+        match f.get(i) {
+            None | Some(&"") => Ok(d),
+            Some(v) => num(path, ln, i, what, v),
+        }
+    };
+    let ps = f.get(12).copied().unwrap_or("P");
+    let is_primary = match ps {
+        "P" | "p" | "" => true,
+        "S" | "s" => false,
+        o => {
+            return Err(
+                InputError::new(path, format!("PS flag '{o}' must be P or S"))
+                    .line(ln)
+                    .column(13),
             );
         }
-        let want = if revision == Revision::R1991 { 10 } else { 13 };
-        if f.len() < 10 || f.len() > 13 || (revision != Revision::R1991 && f.len() != 13) {
+    };
+    let a = Analog {
+        index: num(path, ln, 0, "An", f[0])?,
+        name: f[1].to_string(),
+        phase: f[2].to_string(),
+        circuit: f[3].to_string(),
+        unit: f[4].to_string(),
+        a: num(path, ln, 5, "a", f[5])?,
+        b: opt(6, 0.0, "b")?,
+        skew: opt(7, 0.0, "skew")?,
+        min: opt(8, f64::NEG_INFINITY, "min")?,
+        max: opt(9, f64::INFINITY, "max")?,
+        primary: opt(10, 1.0, "primary")?,
+        secondary: opt(11, 1.0, "secondary")?,
+        is_primary,
+        line: ln,
+    };
+    if !a.a.is_finite() || !a.b.is_finite() {
+        return Err(InputError::new(path, "multiplier a and offset b must be finite").line(ln));
+    }
+    let ratio_ok = a.primary > 0.0 && a.secondary > 0.0;
+    if !is_primary && !ratio_ok {
+        return Err(InputError::new(
+            path,
+            "secondary values need positive primary and secondary ratio terms",
+        )
+        .line(ln)
+        .column(11));
+    }
+    Ok(a)
+}
+
+/// 7.4.5 one digital (status) channel line.
+fn digital_line(
+    ls: &mut Lines<'_>,
+    k: u64,
+    revision: Revision,
+    warnings: &mut Vec<String>,
+) -> Result<Digital, InputError> {
+    let path = ls.path;
+    let (ln, s) = ls.next(&format!("digital channel {}", k + 1))?;
+    let f = fields(s);
+    let (name, phase, circuit, normal) = match f.len() {
+        5 => (f[1], f[2], f[3], f[4]),
+        3 if revision == Revision::R1991 => (f[1], "", "", f[2]),
+        4 => {
+            if !warnings
+                .iter()
+                .any(|w| w.starts_with("digital channel lines"))
+            {
+                warnings.push(format!(
+                    "digital channel lines have 4 fields (no normal state), from line {ln}; normal state 0 is assumed"
+                ));
+            }
+            (f[1], f[2], f[3], "")
+        }
+        n => {
             return Err(InputError::new(
                 path,
-                format!(
-                    "analog channel line has {} fields; expected {want} for revision {} (An,ch_id,ph,ccbm,uu,a,b,skew,min,max{})",
-                    f.len(),
-                    revision.year(),
-                    if want == 13 { ",primary,secondary,PS" } else { "" }
-                ),
+                format!("digital channel line has {n} fields; expected 5 (Dn,ch_id,ph,ccbm,y)"),
             )
             .line(ln)
-            .hint("is a digital channel listed among the analog ones? Check ##A on line 2"));
+            .hint("check ##A and ##D on line 2"));
         }
-        let opt = |i: usize, d: f64, what: &str| -> Result<f64, InputError> {
-            match f.get(i) {
-                None | Some(&"") => Ok(d),
-                Some(v) => num(path, ln, i, what, v),
-            }
-        };
-        let ps = f.get(12).copied().unwrap_or("P");
-        let is_primary = match ps {
-            "P" | "p" | "" => true,
-            "S" | "s" => false,
-            o => {
-                return Err(
-                    InputError::new(path, format!("PS flag '{o}' must be P or S"))
-                        .line(ln)
-                        .column(13),
-                );
-            }
-        };
-        let a = Analog {
-            index: num(path, ln, 0, "An", f[0])?,
-            name: f[1].to_string(),
-            phase: f[2].to_string(),
-            circuit: f[3].to_string(),
-            unit: f[4].to_string(),
-            a: num(path, ln, 5, "a", f[5])?,
-            b: opt(6, 0.0, "b")?,
-            skew: opt(7, 0.0, "skew")?,
-            min: opt(8, f64::NEG_INFINITY, "min")?,
-            max: opt(9, f64::INFINITY, "max")?,
-            primary: opt(10, 1.0, "primary")?,
-            secondary: opt(11, 1.0, "secondary")?,
-            is_primary,
-            line: ln,
-        };
-        if !a.a.is_finite() || !a.b.is_finite() {
-            return Err(InputError::new(path, "multiplier a and offset b must be finite").line(ln));
-        }
-        let ratio_ok = a.primary > 0.0 && a.secondary > 0.0;
-        if !is_primary && !ratio_ok {
-            return Err(InputError::new(
-                path,
-                "secondary values need positive primary and secondary ratio terms",
+    };
+    let normal = match normal {
+        "" | "0" => 0,
+        "1" => 1,
+        o => {
+            return Err(
+                InputError::new(path, format!("normal state '{o}' must be 0 or 1")).line(ln),
             )
-            .line(ln)
-            .column(11));
         }
-        analogs.push(a);
-    }
-    // 7.4.5 digital (status) channel lines.
-    let mut digitals = Vec::with_capacity((nd as usize).min(1024));
-    for k in 0..nd {
-        let (ln, s) = ls.next(&format!("digital channel {}", k + 1))?;
-        let f = fields(s);
-        let (name, phase, circuit, normal) = match f.len() {
-            5 => (f[1], f[2], f[3], f[4]),
-            3 if revision == Revision::R1991 => (f[1], "", "", f[2]),
-            4 => {
-                if !warnings
-                    .iter()
-                    .any(|w| w.starts_with("digital channel lines"))
-                {
-                    warnings.push(format!(
-                        "digital channel lines have 4 fields (no normal state), from line {ln}; normal state 0 is assumed"
-                    ));
-                }
-                (f[1], f[2], f[3], "")
-            }
-            n => {
-                return Err(InputError::new(
-                    path,
-                    format!("digital channel line has {n} fields; expected 5 (Dn,ch_id,ph,ccbm,y)"),
-                )
-                .line(ln)
-                .hint("check ##A and ##D on line 2"));
-            }
-        };
-        let normal = match normal {
-            "" | "0" => 0,
-            "1" => 1,
-            o => {
-                return Err(
-                    InputError::new(path, format!("normal state '{o}' must be 0 or 1")).line(ln),
-                )
-            }
-        };
-        digitals.push(Digital {
-            index: num(path, ln, 0, "Dn", f[0])?,
-            name: name.to_string(),
-            phase: phase.to_string(),
-            circuit: circuit.to_string(),
-            normal,
-            line: ln,
-        });
-    }
-    // 7.4.6 line frequency.
+    };
+    Ok(Digital {
+        index: num(path, ln, 0, "Dn", f[0])?,
+        name: name.to_string(),
+        phase: phase.to_string(),
+        circuit: circuit.to_string(),
+        normal,
+        line: ln,
+    })
+}
+
+/// The sampling section.
+struct Sampling {
+    line_frequency: f64,
+    rates: Vec<(f64, u64)>,
+    total_samples: u64,
+}
+
+/// 7.4.6 line frequency, 7.4.7 sampling rates.
+fn sampling(ls: &mut Lines<'_>) -> Result<Sampling, InputError> {
+    let path = ls.path;
     let (lf_line, lf) = ls.next("line frequency")?;
     let line_frequency: f64 = if lf.trim().is_empty() {
         f64::NAN
     } else {
         num(path, lf_line, 0, "lf", lf)?
     };
-    // 7.4.7 sampling rates.
     let (nl, ns) = ls.next("nrates")?;
     let nrates: u64 = num(path, nl, 0, "nrates", ns)?;
     if nrates > 1000 {
@@ -450,22 +482,24 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
             return Err(InputError::new(path, "a sampling rate must not be negative").line(ln));
         }
     }
-    // 7.4.8 first-sample and trigger times.
-    let (ft_line, first_time) = ls.next("first sample time")?;
-    let nanoseconds = check_stamp(path, ft_line, first_time)?;
-    let (tt_line, trigger_time) = ls.next("trigger time")?;
-    check_stamp(path, tt_line, trigger_time)?;
-    // 7.4.9 data file type.
-    let (dl, ds) = ls.next("file type")?;
-    let data_type = DataType::parse(ds).ok_or_else(|| {
-        InputError::new(
-            path,
-            format!("file type '{ds}' is not ASCII, BINARY, BINARY32 or FLOAT32"),
-        )
-        .line(dl)
-        .hint("BINARY32 and FLOAT32 need revision 2013")
-    })?;
-    // 7.4.10 time multiplier (1999+), 7.4.11 time codes (2013), 7.4.12 time quality (2013).
+    Ok(Sampling {
+        line_frequency,
+        rates,
+        total_samples,
+    })
+}
+
+/// The optional time lines after the file type.
+struct TimeLines {
+    timemult: f64,
+    time_code: Option<(String, String)>,
+    time_quality: Option<(String, String)>,
+}
+
+/// 7.4.10 time multiplier (1999+), 7.4.11 time codes (2013), 7.4.12 time
+/// quality (2013); nothing but blank lines after them.
+fn time_lines(ls: &mut Lines<'_>, revision: Revision) -> Result<TimeLines, InputError> {
+    let path = ls.path;
     let mut timemult: f64 = 1.0;
     let mut time_code = None;
     let mut time_quality = None;
@@ -504,6 +538,52 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
         }
         ls.pos += 1;
     }
+    Ok(TimeLines {
+        timemult,
+        time_code,
+        time_quality,
+    })
+}
+
+/// Parses a configuration held in `text`. `first_line` is the line number of
+/// its first line in the file (1, or later inside a `.cff`).
+pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputError> {
+    let mut ls = Lines {
+        path,
+        lines: text.split('\n').collect(),
+        pos: 0,
+        first_line,
+    };
+    let mut warnings = Vec::new();
+    let (s1, revision, implied) = station_line(&mut ls, &mut warnings)?;
+    let (na, nd) = channel_counts(&mut ls)?;
+    let mut layout = Layout { revision, implied };
+    let mut analogs = Vec::with_capacity((na as usize).min(1024));
+    for k in 0..na {
+        analogs.push(analog_line(&mut ls, k, &mut layout, &mut warnings)?);
+    }
+    let Layout { revision, implied } = layout;
+    let mut digitals = Vec::with_capacity((nd as usize).min(1024));
+    for k in 0..nd {
+        digitals.push(digital_line(&mut ls, k, revision, &mut warnings)?);
+    }
+    let sampling = sampling(&mut ls)?;
+    // 7.4.8 first-sample and trigger times.
+    let (ft_line, first_time) = ls.next("first sample time")?;
+    let nanoseconds = check_stamp(path, ft_line, first_time)?;
+    let (tt_line, trigger_time) = ls.next("trigger time")?;
+    check_stamp(path, tt_line, trigger_time)?;
+    // 7.4.9 data file type.
+    let (dl, ds) = ls.next("file type")?;
+    let data_type = DataType::parse(ds).ok_or_else(|| {
+        InputError::new(
+            path,
+            format!("file type '{ds}' is not ASCII, BINARY, BINARY32 or FLOAT32"),
+        )
+        .line(dl)
+        .hint("BINARY32 and FLOAT32 need revision 2013")
+    })?;
+    let times = time_lines(&mut ls, revision)?;
     Ok(Config {
         station: f_string(s1, 0),
         device: f_string(s1, 1),
@@ -511,16 +591,16 @@ pub fn parse(path: &Path, text: &str, first_line: u64) -> Result<Config, InputEr
         revision_implied: implied,
         analogs,
         digitals,
-        line_frequency,
-        rates,
-        total_samples,
+        line_frequency: sampling.line_frequency,
+        rates: sampling.rates,
+        total_samples: sampling.total_samples,
         first_time: first_time.trim().to_string(),
         trigger_time: trigger_time.trim().to_string(),
         nanoseconds,
         data_type,
-        timemult,
-        time_code,
-        time_quality,
+        timemult: times.timemult,
+        time_code: times.time_code,
+        time_quality: times.time_quality,
         warnings,
     })
 }
