@@ -30,25 +30,44 @@ struct Raw {
     line: Vec<u64>,
 }
 
+impl Raw {
+    fn clear(&mut self, channels: usize) {
+        self.sample.clear();
+        self.stamp.clear();
+        self.line.clear();
+        self.cols.resize_with(channels, Vec::new);
+        for c in &mut self.cols {
+            c.clear();
+        }
+    }
+}
+
+/// Binary records (BINARY, BINARY32, FLOAT32).
+struct Binary {
+    r: DataReader,
+    /// Bytes of data left (a `.cff` section of known length).
+    left: Option<u64>,
+    /// Bytes per record.
+    rec: usize,
+    buf: Vec<u8>,
+    /// The data ended in SUB (0x1A) padding, which was ignored.
+    sub_padding: bool,
+}
+
+/// ASCII records, one line each.
+struct Ascii {
+    r: DataReader,
+    line: Vec<u8>,
+    line_no: u64,
+    in_cff: bool,
+    done: bool,
+    /// Runs of blank lines skipped between records.
+    blank_lines: u64,
+}
+
 enum Reader {
-    Binary {
-        r: DataReader,
-        /// Bytes of data left (a `.cff` section of known length).
-        left: Option<u64>,
-        rec: usize,
-        buf: Vec<u8>,
-        /// The data ended in SUB (0x1A) padding, which was ignored.
-        sub_padding: bool,
-    },
-    Ascii {
-        r: DataReader,
-        line: Vec<u8>,
-        line_no: u64,
-        in_cff: bool,
-        done: bool,
-        /// Runs of blank lines skipped between records.
-        blank_lines: u64,
-    },
+    Binary(Binary),
+    Ascii(Ascii),
 }
 
 struct Decoder<'a> {
@@ -65,14 +84,14 @@ impl<'a> Decoder<'a> {
         let r = open_data(&src.data)?;
         let cfg = &src.cfg;
         let reader = match cfg.data_type {
-            DataType::Ascii => Reader::Ascii {
+            DataType::Ascii => Reader::Ascii(Ascii {
                 r,
                 line: Vec::with_capacity(256),
                 line_no: src.data.first_line - 1,
                 in_cff: src.data.in_cff,
                 done: false,
                 blank_lines: 0,
-            },
+            }),
             dt => {
                 let rec =
                     8 + cfg.analogs.len() * dt.analog_bytes() + 2 * cfg.digitals.len().div_ceil(16);
@@ -80,13 +99,13 @@ impl<'a> Decoder<'a> {
                 // buffer grows with what the file holds, not with what the
                 // configuration announces.
                 let records = (READ_BYTES / rec).clamp(1, BLOCK);
-                Reader::Binary {
+                Reader::Binary(Binary {
                     r,
                     left: src.data.len,
                     rec,
                     buf: vec![0; rec * records],
                     sub_padding: false,
-                }
+                })
             }
         };
         let na = cfg.analogs.len();
@@ -120,15 +139,15 @@ impl<'a> Decoder<'a> {
     /// What was tolerated: runs of blank lines skipped, SUB padding ignored.
     fn tolerated(&self) -> (u64, bool) {
         match &self.reader {
-            Reader::Ascii { blank_lines, .. } => (*blank_lines, false),
-            Reader::Binary { sub_padding, .. } => (0, *sub_padding),
+            Reader::Ascii(a) => (a.blank_lines, false),
+            Reader::Binary(b) => (0, b.sub_padding),
         }
     }
 
     /// Reads the rest of the file and returns the SHA-256 of all its bytes.
     fn finish(self) -> Result<String, InputError> {
         let r = match self.reader {
-            Reader::Binary { r, .. } | Reader::Ascii { r, .. } => r,
+            Reader::Binary(Binary { r, .. }) | Reader::Ascii(Ascii { r, .. }) => r,
         };
         r.finish()
             .map(|(d, _)| d)
@@ -137,240 +156,263 @@ impl<'a> Decoder<'a> {
 
     /// Reads up to `max` records into `raw` (cleared first); 0 at the end.
     fn next(&mut self, max: usize, raw: &mut Raw) -> Result<usize, InputError> {
-        raw.sample.clear();
-        raw.stamp.clear();
-        raw.line.clear();
-        let mapped = &self.src.mapped;
-        raw.cols.resize_with(mapped.len(), Vec::new);
-        for c in &mut raw.cols {
-            c.clear();
-        }
-        let cfg = &self.src.cfg;
-        let na = cfg.analogs.len();
-        let nd = cfg.digitals.len();
-        let field_col = &self.field_col;
-        match &mut self.reader {
-            Reader::Binary {
-                r,
-                left,
-                rec,
-                buf,
-                sub_padding,
-            } => {
-                let want = (*rec * max)
-                    .min(buf.len())
-                    .min(left.map_or(usize::MAX, |l| l.min(usize::MAX as u64) as usize));
-                let mut filled = 0;
-                while filled < want {
-                    match r.read(&mut buf[filled..want]) {
-                        Ok(0) => break,
-                        Ok(n) => filled += n,
-                        Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
-                        Err(e) => {
-                            return Err(InputError::new(
-                                &self.src.data.path,
-                                format!("cannot read: {e}"),
-                            ))
-                        }
-                    }
+        raw.clear(self.src.mapped.len());
+        let n = match &mut self.reader {
+            Reader::Binary(b) => b.read(self.src, self.count, max, raw)?,
+            Reader::Ascii(a) => a.read(self.src, &self.field_col, max, raw)?,
+        };
+        self.count += n as u64;
+        Ok(n)
+    }
+}
+
+/// One value of a mapped channel in a binary record `b`.
+fn binary_value(b: &[u8], m: &Mapped, dt: DataType, na: usize) -> f64 {
+    let ab = dt.analog_bytes();
+    let four = |o: usize| [b[o], b[o + 1], b[o + 2], b[o + 3]];
+    if let Some(i) = m.analog {
+        let o = 8 + i * ab;
+        match dt {
+            DataType::Binary => {
+                let x = i16::from_le_bytes([b[o], b[o + 1]]);
+                if x == i16::MIN {
+                    f64::NAN
+                } else {
+                    x as f64
                 }
-                if let Some(l) = left {
-                    *l -= filled as u64;
-                }
-                let mut n = filled / *rec;
-                let tail = &buf[n * *rec..filled];
-                if !tail.is_empty() && tail.iter().all(|b| *b == 0x1a) {
-                    // SUB padding after the last record: the end.
-                    *sub_padding = true;
-                    *left = Some(0);
-                } else if filled % *rec != 0 && self.src.opts.partial {
-                    // Inspect: the records before the cut are shown.
-                    *left = Some(0);
-                } else if filled % *rec != 0 {
-                    return Err(InputError::new(
-                        &self.src.data.path,
-                        format!(
-                            "record of sample {} is truncated: {} of {} bytes",
-                            self.count + n as u64 + 1,
-                            filled % *rec,
-                            *rec
-                        ),
-                    )
-                    .hint("the data file was cut short; the recording cannot be used as it is"));
-                }
-                let ab = cfg.data_type.analog_bytes();
-                let dt = cfg.data_type;
-                for k in 0..n {
-                    let b = &buf[k * *rec..(k + 1) * *rec];
-                    if b.iter().all(|x| *x == 0x1a) {
-                        // Whole records of SUB padding: the data ended.
-                        *sub_padding = true;
-                        *left = Some(0);
-                        n = k;
-                        break;
-                    }
-                    let u32_at =
-                        |o: usize| u32::from_le_bytes([b[o], b[o + 1], b[o + 2], b[o + 3]]);
-                    raw.sample.push(u32_at(0) as u64);
-                    let ts = u32_at(4);
-                    raw.stamp
-                        .push(if ts == u32::MAX { f64::NAN } else { ts as f64 });
-                    for (c, m) in mapped.iter().enumerate() {
-                        let v = if let Some(i) = m.analog {
-                            let o = 8 + i * ab;
-                            match dt {
-                                DataType::Binary => {
-                                    let x = i16::from_le_bytes([b[o], b[o + 1]]);
-                                    if x == i16::MIN {
-                                        f64::NAN
-                                    } else {
-                                        x as f64
-                                    }
-                                }
-                                DataType::Binary32 => {
-                                    let x =
-                                        i32::from_le_bytes([b[o], b[o + 1], b[o + 2], b[o + 3]]);
-                                    if x == i32::MIN {
-                                        f64::NAN
-                                    } else {
-                                        x as f64
-                                    }
-                                }
-                                _ => {
-                                    f32::from_le_bytes([b[o], b[o + 1], b[o + 2], b[o + 3]]) as f64
-                                }
-                            }
-                        } else if let Some(d) = m.digital {
-                            let o = 8 + na * ab + 2 * (d / 16);
-                            let w = u16::from_le_bytes([b[o], b[o + 1]]);
-                            ((w >> (d % 16)) & 1) as f64
-                        } else {
-                            f64::NAN
-                        };
-                        raw.cols[c].push(v);
-                    }
-                }
-                self.count += n as u64;
-                Ok(n)
             }
-            Reader::Ascii {
-                r,
-                line,
-                line_no,
-                in_cff,
-                done,
-                blank_lines,
-            } => {
-                let path = self.src.data.path.clone();
-                let mut n = 0;
-                let nfields = 2 + na + nd;
-                let mut pending_blank: Option<u64> = None;
-                while n < max && !*done {
-                    line.clear();
-                    let got = (&mut *r)
-                        .take(MAX_LINE_BYTES + 1)
-                        .read_until(b'\n', line)
-                        .map_err(|e| InputError::new(&path, format!("cannot read: {e}")))?;
-                    if got == 0 {
-                        *done = true;
-                        break;
-                    }
-                    if got as u64 > MAX_LINE_BYTES {
-                        return Err(InputError::new(
-                            &path,
-                            format!("a line is longer than {MAX_LINE_BYTES} bytes"),
-                        )
-                        .line(*line_no + 1)
-                        .hint(
-                            "an ASCII data record is one line per sample; is this the data file?",
-                        ));
-                    }
-                    *line_no += 1;
-                    let text = trim(line);
-                    if text.is_empty() {
-                        pending_blank.get_or_insert(*line_no);
-                        continue;
-                    }
-                    if *in_cff && text.starts_with(b"---") {
-                        *done = true;
-                        break;
-                    }
-                    if pending_blank.take().is_some() {
-                        // Blank lines between records: skipped, as every
-                        // general-purpose reader does, and counted.
-                        *blank_lines += 1;
-                    }
-                    let mut field = 0usize;
-                    let mut vals: [f64; 2] = [f64::NAN; 2];
-                    let mut row_cols: smallvec_cols::Cols = smallvec_cols::Cols::new(mapped.len());
-                    for (fi, part) in text.split(|c| *c == b',').enumerate() {
-                        field = fi + 1;
-                        if fi >= nfields {
-                            continue;
-                        }
-                        let p = trim(part);
-                        let parse = |what: &str| -> Result<f64, InputError> {
-                            if p.is_empty() {
-                                return Ok(f64::NAN);
-                            }
-                            match fast_float2::parse::<f64, _>(p) {
-                                Ok(v) if v.is_finite() => Ok(v),
-                                _ => Err(InputError::new(
-                                    &path,
-                                    format!(
-                                        "{what}: '{}' is not a number",
-                                        String::from_utf8_lossy(p)
-                                    ),
-                                )
-                                .line(*line_no)
-                                .column(fi as u64 + 1)),
-                            }
-                        };
-                        if fi < 2 {
-                            vals[fi] = parse(if fi == 0 {
-                                "sample number"
-                            } else {
-                                "timestamp"
-                            })?;
-                        } else if !field_col[fi].is_empty() {
-                            let k = fi - 2;
-                            let name = if k < na {
-                                &cfg.analogs[k].name
-                            } else {
-                                &cfg.digitals[k - na].name
-                            };
-                            let v = parse(&format!("channel '{name}'"))?;
-                            for c in &field_col[fi] {
-                                row_cols.set(*c, v);
-                            }
-                        }
-                    }
-                    if field != nfields {
-                        return Err(InputError::new(
-                            &path,
-                            format!("record has {field} fields; the configuration gives {nfields} (n, timestamp, {na} analog, {nd} digital)"),
-                        )
-                        .line(*line_no)
-                        .hint("check the channel counts on line 2 of the configuration"));
-                    }
-                    if !vals[0].is_finite() {
-                        return Err(InputError::new(&path, "the sample number is missing")
-                            .line(*line_no)
-                            .column(1));
-                    }
-                    raw.sample.push(vals[0] as u64);
-                    raw.stamp.push(vals[1]);
-                    raw.line.push(*line_no);
-                    for c in 0..mapped.len() {
-                        raw.cols[c].push(row_cols.get(c));
-                    }
-                    n += 1;
+            DataType::Binary32 => {
+                let x = i32::from_le_bytes(four(o));
+                if x == i32::MIN {
+                    f64::NAN
+                } else {
+                    x as f64
                 }
-                self.count += n as u64;
-                Ok(n)
+            }
+            _ => f32::from_le_bytes(four(o)) as f64,
+        }
+    } else if let Some(d) = m.digital {
+        let o = 8 + na * ab + 2 * (d / 16);
+        let w = u16::from_le_bytes([b[o], b[o + 1]]);
+        ((w >> (d % 16)) & 1) as f64
+    } else {
+        f64::NAN
+    }
+}
+
+impl Binary {
+    /// Fills the buffer with up to `max` records; returns the bytes read.
+    fn fill(&mut self, src: &ComtradeSource, max: usize) -> Result<usize, InputError> {
+        let want = (self.rec * max).min(self.buf.len()).min(
+            self.left
+                .map_or(usize::MAX, |l| l.min(usize::MAX as u64) as usize),
+        );
+        let mut filled = 0;
+        while filled < want {
+            match self.r.read(&mut self.buf[filled..want]) {
+                Ok(0) => break,
+                Ok(n) => filled += n,
+                Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+                Err(e) => return Err(InputError::new(&src.data.path, format!("cannot read: {e}"))),
+            }
+        }
+        if let Some(l) = &mut self.left {
+            *l -= filled as u64;
+        }
+        Ok(filled)
+    }
+
+    /// Reads up to `max` records (`count` were read before).
+    fn read(
+        &mut self,
+        src: &ComtradeSource,
+        count: u64,
+        max: usize,
+        raw: &mut Raw,
+    ) -> Result<usize, InputError> {
+        let filled = self.fill(src, max)?;
+        let rec = self.rec;
+        let mut n = filled / rec;
+        let tail = &self.buf[n * rec..filled];
+        if !tail.is_empty() && tail.iter().all(|b| *b == 0x1a) {
+            // SUB padding after the last record: the end.
+            self.sub_padding = true;
+            self.left = Some(0);
+        } else if filled % rec != 0 && src.opts.partial {
+            // Inspect: the records before the cut are shown.
+            self.left = Some(0);
+        } else if filled % rec != 0 {
+            return Err(InputError::new(
+                &src.data.path,
+                format!(
+                    "record of sample {} is truncated: {} of {} bytes",
+                    count + n as u64 + 1,
+                    filled % rec,
+                    rec
+                ),
+            )
+            .hint("the data file was cut short; the recording cannot be used as it is"));
+        }
+        let dt = src.cfg.data_type;
+        let na = src.cfg.analogs.len();
+        for k in 0..n {
+            let b = &self.buf[k * rec..(k + 1) * rec];
+            if b.iter().all(|x| *x == 0x1a) {
+                // Whole records of SUB padding: the data ended.
+                self.sub_padding = true;
+                self.left = Some(0);
+                n = k;
+                break;
+            }
+            let u32_at = |o: usize| u32::from_le_bytes([b[o], b[o + 1], b[o + 2], b[o + 3]]);
+            raw.sample.push(u32_at(0) as u64);
+            let ts = u32_at(4);
+            raw.stamp
+                .push(if ts == u32::MAX { f64::NAN } else { ts as f64 });
+            for (c, m) in src.mapped.iter().enumerate() {
+                raw.cols[c].push(binary_value(b, m, dt, na));
+            }
+        }
+        Ok(n)
+    }
+}
+
+impl Ascii {
+    /// The next line that is not blank (counting runs of blank lines
+    /// between records), or `None` at the end of the data.
+    fn next_line(&mut self, path: &std::path::Path) -> Result<Option<()>, InputError> {
+        let mut pending_blank = false;
+        loop {
+            self.line.clear();
+            let got = (&mut self.r)
+                .take(MAX_LINE_BYTES + 1)
+                .read_until(b'\n', &mut self.line)
+                .map_err(|e| InputError::new(path, format!("cannot read: {e}")))?;
+            if got == 0 {
+                self.done = true;
+                return Ok(None);
+            }
+            if got as u64 > MAX_LINE_BYTES {
+                return Err(InputError::new(
+                    path,
+                    format!("a line is longer than {MAX_LINE_BYTES} bytes"),
+                )
+                .line(self.line_no + 1)
+                .hint("an ASCII data record is one line per sample; is this the data file?"));
+            }
+            self.line_no += 1;
+            let text = trim(&self.line);
+            if text.is_empty() {
+                pending_blank = true;
+                continue;
+            }
+            if self.in_cff && text.starts_with(b"---") {
+                self.done = true;
+                return Ok(None);
+            }
+            if pending_blank {
+                // Blank lines between records: skipped, as every
+                // general-purpose reader does, and counted.
+                self.blank_lines += 1;
+            }
+            return Ok(Some(()));
+        }
+    }
+
+    /// Reads up to `max` records.
+    fn read(
+        &mut self,
+        src: &ComtradeSource,
+        field_col: &[Vec<usize>],
+        max: usize,
+        raw: &mut Raw,
+    ) -> Result<usize, InputError> {
+        let path = src.data.path.clone();
+        let mut n = 0;
+        while n < max && !self.done {
+            if self.next_line(&path)?.is_none() {
+                break;
+            }
+            let (sample, stamp, cols) = record(src, field_col, trim(&self.line), self.line_no)?;
+            raw.sample.push(sample);
+            raw.stamp.push(stamp);
+            raw.line.push(self.line_no);
+            for c in 0..src.mapped.len() {
+                raw.cols[c].push(cols.get(c));
+            }
+            n += 1;
+        }
+        Ok(n)
+    }
+}
+
+/// One ASCII record: sample number, timestamp and the mapped values.
+fn record(
+    src: &ComtradeSource,
+    field_col: &[Vec<usize>],
+    text: &[u8],
+    line_no: u64,
+) -> Result<(u64, f64, smallvec_cols::Cols), InputError> {
+    let path = &src.data.path;
+    let cfg = &src.cfg;
+    let (na, nd) = (cfg.analogs.len(), cfg.digitals.len());
+    let nfields = 2 + na + nd;
+    let mut field = 0usize;
+    let mut vals: [f64; 2] = [f64::NAN; 2];
+    let mut row_cols = smallvec_cols::Cols::new(src.mapped.len());
+    for (fi, part) in text.split(|c| *c == b',').enumerate() {
+        field = fi + 1;
+        if fi >= nfields {
+            continue;
+        }
+        let p = trim(part);
+        let parse = |what: &str| -> Result<f64, InputError> {
+            if p.is_empty() {
+                return Ok(f64::NAN);
+            }
+            match fast_float2::parse::<f64, _>(p) {
+                Ok(v) if v.is_finite() => Ok(v),
+                _ => Err(InputError::new(
+                    path,
+                    format!("{what}: '{}' is not a number", String::from_utf8_lossy(p)),
+                )
+                .line(line_no)
+                .column(fi as u64 + 1)),
+            }
+        };
+        if fi < 2 {
+            vals[fi] = parse(if fi == 0 {
+                "sample number"
+            } else {
+                "timestamp"
+            })?;
+        } else if !field_col[fi].is_empty() {
+            let k = fi - 2;
+            let name = if k < na {
+                &cfg.analogs[k].name
+            } else {
+                &cfg.digitals[k - na].name
+            };
+            let v = parse(&format!("channel '{name}'"))?;
+            for c in &field_col[fi] {
+                row_cols.set(*c, v);
             }
         }
     }
+    if field != nfields {
+        return Err(InputError::new(
+            path,
+            format!("record has {field} fields; the configuration gives {nfields} (n, timestamp, {na} analog, {nd} digital)"),
+        )
+        .line(line_no)
+        .hint("check the channel counts on line 2 of the configuration"));
+    }
+    if !vals[0].is_finite() {
+        return Err(InputError::new(path, "the sample number is missing")
+            .line(line_no)
+            .column(1));
+    }
+    Ok((vals[0] as u64, vals[1], row_cols))
 }
 
 /// A fixed set of per-record values without allocation per record.
