@@ -258,16 +258,134 @@ pub struct Analysed {
     pub decimation: usize,
 }
 
+/// The per-unit factor of each channel key: 1 for channels already in per
+/// unit, one over the base for channels in V or A (phase or line base by the
+/// connection; the residual voltage on the phase base).
+fn per_unit_scale(info: &RecordingInfo, ratings: Option<&Ratings>) -> [f64; N_KEYS] {
+    let mut scale = [1.0; N_KEYS];
+    let Some(r) = ratings else { return scale };
+    let unit_of = |k: ChannelKey| {
+        info.channels
+            .iter()
+            .find(|c| c.key == k)
+            .map(|c| c.canonical_unit)
+    };
+    let vbase = match info.connection {
+        Connection::PhaseToNeutral => r.voltage_base_phase_v(),
+        Connection::PhaseToPhase => r.voltage_base_line_v(),
+    };
+    for k in [ChannelKey::Va, ChannelKey::Vb, ChannelKey::Vc] {
+        if unit_of(k) == Some("V") {
+            scale[k.index()] = 1.0 / vbase;
+        }
+    }
+    if unit_of(ChannelKey::Vn) == Some("V") {
+        scale[ChannelKey::Vn.index()] = 1.0 / r.voltage_base_phase_v();
+    }
+    for k in [ChannelKey::Ia, ChannelKey::Ib, ChannelKey::Ic] {
+        if unit_of(k) == Some("A") {
+            scale[k.index()] = 1.0 / r.current_base_a();
+        }
+    }
+    scale
+}
+
+/// Refuses a waveform sample rate that gives no usable one-cycle phasors.
+fn check_rate(path: &Path, fs: f64, f: f64) -> Result<(), InputError> {
+    if !(fs > 0.0) || !fs.is_finite() {
+        return Err(InputError::new(path, "sample rate could not be determined")
+            .hint("the time column needs at least two increasing values"));
+    }
+    if fs > MAX_SAMPLES_PER_CYCLE * f {
+        return Err(InputError::new(
+            path,
+            format!(
+                "waveforms sampled at {fs:.4e} Hz give {:.0} samples per {f} Hz cycle; at most {MAX_SAMPLES_PER_CYCLE} are accepted",
+                fs / f,
+            ),
+        )
+        .hint("check the time column's unit (seconds) or the sampling rate, or decimate the recording"));
+    }
+    if fs < 8.0 * f {
+        return Err(InputError::new(
+            path,
+            format!(
+                "waveforms sampled at {fs:.1} Hz cannot give {f} Hz phasors (at least 8 samples per cycle needed)"
+            ),
+        )
+        .hint("check the time column's unit (seconds) and --frequency"));
+    }
+    Ok(())
+}
+
+/// The quantities the analysis of a recording produces, in series order.
+fn quantities(
+    info: &RecordingInfo,
+    has_voltage: bool,
+    has_current: bool,
+    has_status: bool,
+) -> Vec<Quantity> {
+    let mut present = if has_voltage {
+        vec![Quantity::V1]
+    } else {
+        Vec::new()
+    };
+    match (info.kind, has_voltage) {
+        (RecordingKind::Waveform, false) => {
+            if has_current {
+                present.extend([Quantity::I1, Quantity::I2, Quantity::IMax]);
+            }
+        }
+        (RecordingKind::Waveform, true) => {
+            present.extend([
+                Quantity::V2,
+                Quantity::Va,
+                Quantity::Vb,
+                Quantity::Vc,
+                Quantity::Vab,
+                Quantity::Vbc,
+                Quantity::Vca,
+                Quantity::WaveDeviation,
+            ]);
+            if info.connection == Connection::PhaseToNeutral || info.has(ChannelKey::Vn) {
+                present.push(Quantity::V0);
+            }
+            if has_current {
+                present.extend([
+                    Quantity::P,
+                    Quantity::Q,
+                    Quantity::Ip,
+                    Quantity::Iq,
+                    Quantity::Iq2,
+                    Quantity::I1,
+                    Quantity::I2,
+                    Quantity::IMax,
+                ]);
+            }
+        }
+        (RecordingKind::RmsLevel, _) => {
+            if has_current {
+                present.extend([
+                    Quantity::P,
+                    Quantity::Q,
+                    Quantity::Ip,
+                    Quantity::Iq,
+                    Quantity::I1,
+                    Quantity::IMax,
+                ]);
+            }
+        }
+    }
+    if has_status {
+        present.push(Quantity::Status);
+    }
+    present
+}
+
 impl Analyzer {
     /// Prepares the analysis for a recording as its importer opened it.
     pub fn new(info: &RecordingInfo, settings: &AnalysisSettings) -> Result<Self, InputError> {
         let path = Path::new(&info.path);
-        let unit_of = |k: ChannelKey| {
-            info.channels
-                .iter()
-                .find(|c| c.key == k)
-                .map(|c| c.canonical_unit)
-        };
         let needs_ratings = info
             .channels
             .iter()
@@ -283,26 +401,6 @@ impl Analyzer {
             return Err(InputError::new(path, "nominal frequency is not set")
                 .hint("give --frequency 50 or 60 (or the plan's unit.frequency_hz)"));
         }
-        let mut scale = [1.0; N_KEYS];
-        if let Some(r) = &settings.ratings {
-            let vbase = match info.connection {
-                Connection::PhaseToNeutral => r.voltage_base_phase_v(),
-                Connection::PhaseToPhase => r.voltage_base_line_v(),
-            };
-            for k in [ChannelKey::Va, ChannelKey::Vb, ChannelKey::Vc] {
-                if unit_of(k) == Some("V") {
-                    scale[k.index()] = 1.0 / vbase;
-                }
-            }
-            if unit_of(ChannelKey::Vn) == Some("V") {
-                scale[ChannelKey::Vn.index()] = 1.0 / r.voltage_base_phase_v();
-            }
-            for k in [ChannelKey::Ia, ChannelKey::Ib, ChannelKey::Ic] {
-                if unit_of(k) == Some("A") {
-                    scale[k.index()] = 1.0 / r.current_base_a();
-                }
-            }
-        }
         let has_current =
             info.has(ChannelKey::Ia) || info.has(ChannelKey::P) || info.has(ChannelKey::Ip);
         let has_status = info.has(ChannelKey::Status);
@@ -314,126 +412,28 @@ impl Analyzer {
         ]
         .iter()
         .any(|k| info.has(*k));
-        let mut present = if has_voltage {
-            vec![Quantity::V1]
-        } else {
-            Vec::new()
-        };
         let (dft, decimation) = match info.kind {
             RecordingKind::Waveform => {
                 let fs = info.sample_rate_hz;
-                if !(fs > 0.0) || !fs.is_finite() {
-                    return Err(InputError::new(path, "sample rate could not be determined")
-                        .hint("the time column needs at least two increasing values"));
-                }
-                if fs > MAX_SAMPLES_PER_CYCLE * settings.frequency_hz {
-                    return Err(InputError::new(
-                        path,
-                        format!(
-                            "waveforms sampled at {fs:.4e} Hz give {:.0} samples per {} Hz cycle; at most {MAX_SAMPLES_PER_CYCLE} are accepted",
-                            fs / settings.frequency_hz,
-                            settings.frequency_hz
-                        ),
-                    )
-                    .hint("check the time column's unit (seconds) or the sampling rate, or decimate the recording"));
-                }
-                if fs < 8.0 * settings.frequency_hz {
-                    return Err(InputError::new(
-                        path,
-                        format!(
-                            "waveforms sampled at {fs:.1} Hz cannot give {} Hz phasors (at least 8 samples per cycle needed)",
-                            settings.frequency_hz
-                        ),
-                    )
-                    .hint("check the time column's unit (seconds) and --frequency"));
-                }
-                if !has_voltage {
-                    // Currents only (inspect of a recording without mapped
-                    // voltages): magnitudes and what they show of a trip.
-                    if has_current {
-                        present.extend([Quantity::I1, Quantity::I2, Quantity::IMax]);
-                    }
-                    let dft = has_current.then(|| SlidingDft::new(fs, settings.frequency_hz, 3));
-                    let dec = ((fs
-                        / (settings.frequency_hz * settings.points_per_cycle.max(1) as f64))
-                        .floor() as usize)
-                        .max(1);
-                    if has_status {
-                        present.push(Quantity::Status);
-                    }
-                    return Ok(Analyzer {
-                        kind: info.kind,
-                        connection: info.connection,
-                        dft,
-                        has_current,
-                        has_status,
-                        has_voltage,
-                        has_residual: false,
-                        derived_voltage: None,
-                        phase_order: settings.phase_order,
-                        scale,
-                        decimation: dec,
-                        since_out: 0,
-                        status_min: f64::INFINITY,
-                        deviation_max: 0.0,
-                        u1: None,
-                        u2: None,
-                        series: Series::new(&present),
-                        xbuf: [0.0; 7],
-                        frequency_hz: settings.frequency_hz,
-                        problem: None,
-                    });
-                }
-                present.extend([
-                    Quantity::V2,
-                    Quantity::Va,
-                    Quantity::Vb,
-                    Quantity::Vc,
-                    Quantity::Vab,
-                    Quantity::Vbc,
-                    Quantity::Vca,
-                    Quantity::WaveDeviation,
-                ]);
-                if info.connection == Connection::PhaseToNeutral || info.has(ChannelKey::Vn) {
-                    present.push(Quantity::V0);
-                }
-                if has_current {
-                    present.extend([
-                        Quantity::P,
-                        Quantity::Q,
-                        Quantity::Ip,
-                        Quantity::Iq,
-                        Quantity::Iq2,
-                        Quantity::I1,
-                        Quantity::I2,
-                        Quantity::IMax,
-                    ]);
-                }
-                let chans = if has_current { 6 } else { 3 } + info.has(ChannelKey::Vn) as usize;
-                let dft = SlidingDft::new(fs, settings.frequency_hz, chans);
+                check_rate(path, fs, settings.frequency_hz)?;
+                // Currents only (inspect of a recording without mapped
+                // voltages): magnitudes and what they show of a trip.
+                let chans = match (has_voltage, has_current) {
+                    (true, true) => Some(6 + info.has(ChannelKey::Vn) as usize),
+                    (true, false) => Some(3 + info.has(ChannelKey::Vn) as usize),
+                    (false, true) => Some(3),
+                    (false, false) => None,
+                };
+                let dft = chans.map(|n| SlidingDft::new(fs, settings.frequency_hz, n));
                 let dec = ((fs / (settings.frequency_hz * settings.points_per_cycle.max(1) as f64))
                     .floor() as usize)
                     .max(1);
-                (Some(dft), dec)
+                (dft, dec)
             }
-            RecordingKind::RmsLevel => {
-                if has_current {
-                    present.extend([
-                        Quantity::P,
-                        Quantity::Q,
-                        Quantity::Ip,
-                        Quantity::Iq,
-                        Quantity::I1,
-                        Quantity::IMax,
-                    ]);
-                }
-                (None, 1)
-            }
+            RecordingKind::RmsLevel => (None, 1),
         };
-        if has_status {
-            present.push(Quantity::Status);
-        }
-        let derived_voltage = if info.kind == RecordingKind::Waveform
+        let derived_voltage = if has_voltage
+            && info.kind == RecordingKind::Waveform
             && info.connection == Connection::PhaseToPhase
         {
             [ChannelKey::Va, ChannelKey::Vb, ChannelKey::Vc]
@@ -442,6 +442,7 @@ impl Analyzer {
         } else {
             None
         };
+        let present = quantities(info, has_voltage, has_current, has_status);
         Ok(Analyzer {
             kind: info.kind,
             connection: info.connection,
@@ -449,10 +450,10 @@ impl Analyzer {
             has_current,
             has_status,
             has_voltage,
-            has_residual: info.has(ChannelKey::Vn),
+            has_residual: has_voltage && info.has(ChannelKey::Vn),
             derived_voltage,
             phase_order: settings.phase_order,
-            scale,
+            scale: per_unit_scale(info, settings.ratings.as_ref()),
             decimation,
             since_out: 0,
             status_min: f64::INFINITY,
@@ -635,128 +636,140 @@ impl FrameSink for Analyzer {
             self.block_currents_only(block);
             return;
         }
+        match self.kind {
+            RecordingKind::Waveform => self.block_waveform(block),
+            RecordingKind::RmsLevel => self.block_rms(block),
+        }
+    }
+}
+
+impl Analyzer {
+    /// Waveforms: scaled (and derived, swapped) samples into the sliding DFT,
+    /// one output point per decimation group.
+    fn block_waveform(&mut self, block: &Block<'_>) {
         let ch = |k: ChannelKey| block.channels[k.index()];
         let status = ch(ChannelKey::Status);
-        match self.kind {
-            RecordingKind::Waveform => {
-                let keys = [
-                    ChannelKey::Va,
-                    ChannelKey::Vb,
-                    ChannelKey::Vc,
-                    ChannelKey::Ia,
-                    ChannelKey::Ib,
-                    ChannelKey::Ic,
-                ];
-                let nch = if self.has_current { 6 } else { 3 };
-                let cols: Vec<&[f64]> = keys[..nch].iter().map(|k| ch(*k).unwrap_or(&[])).collect();
-                let scales: Vec<f64> = keys[..nch].iter().map(|k| self.scale[k.index()]).collect();
-                let residual = ch(ChannelKey::Vn).filter(|_| self.has_residual);
-                let vn_scale = self.scale[ChannelKey::Vn.index()];
-                let nd = nch + residual.is_some() as usize;
-                let line = self.connection == Connection::PhaseToPhase;
-                let acb = self.phase_order == PhaseOrder::Acb;
-                for i in 0..block.len() {
-                    for c in 0..nch {
-                        if Some(c) != self.derived_voltage {
-                            self.xbuf[c] = cols[c][i] * scales[c];
-                        }
-                    }
-                    if let Some(k) = self.derived_voltage {
-                        self.xbuf[k] = -(self.xbuf[(k + 1) % 3] + self.xbuf[(k + 2) % 3]);
-                    }
-                    if acb {
-                        if line {
-                            // Swapping b and c: v_ab → −v_ca, v_bc → −v_bc, v_ca → −v_ab.
-                            let (ab, bc, ca) = (self.xbuf[0], self.xbuf[1], self.xbuf[2]);
-                            self.xbuf[0] = -ca;
-                            self.xbuf[1] = -bc;
-                            self.xbuf[2] = -ab;
-                        } else {
-                            self.xbuf.swap(1, 2);
-                        }
-                        if nch == 6 {
-                            self.xbuf.swap(4, 5);
-                        }
-                    }
-                    if let Some(r) = residual {
-                        self.xbuf[nch] = r[i] * vn_scale;
-                    }
-                    let xb = self.xbuf;
-                    if xb[..nd].iter().any(|x| !x.is_finite()) && self.problem.is_none() {
-                        let c = xb[..nd].iter().position(|x| !x.is_finite()).unwrap_or(0);
-                        let name = if c < nch { keys[c].name() } else { "vn" };
-                        self.problem = Some((format!("channel {name}"), block.time[i]));
-                    }
-                    if let Some(d) = &mut self.dft {
-                        if d.ready() {
-                            for c in 0..3 {
-                                let dv = (xb[c] - d.oldest(c)).abs();
-                                if dv > self.deviation_max {
-                                    self.deviation_max = dv;
-                                }
-                            }
-                        }
-                        d.push(&xb[..nd]);
-                    }
-                    if let Some(st) = status {
-                        self.status_min = self.status_min.min(st[i]);
-                    }
-                    let ready = self.dft.as_ref().is_some_and(|d| d.ready());
-                    if ready {
-                        if self.since_out == 0 {
-                            self.emit_waveform(block.time[i]);
-                            self.status_min = f64::INFINITY;
-                        }
-                        self.since_out += 1;
-                        if self.since_out >= self.decimation {
-                            self.since_out = 0;
-                        }
-                    }
+        let keys = [
+            ChannelKey::Va,
+            ChannelKey::Vb,
+            ChannelKey::Vc,
+            ChannelKey::Ia,
+            ChannelKey::Ib,
+            ChannelKey::Ic,
+        ];
+        let nch = if self.has_current { 6 } else { 3 };
+        let cols: Vec<&[f64]> = keys[..nch].iter().map(|k| ch(*k).unwrap_or(&[])).collect();
+        let scales: Vec<f64> = keys[..nch].iter().map(|k| self.scale[k.index()]).collect();
+        let residual = ch(ChannelKey::Vn).filter(|_| self.has_residual);
+        let vn_scale = self.scale[ChannelKey::Vn.index()];
+        let nd = nch + residual.is_some() as usize;
+        let line = self.connection == Connection::PhaseToPhase;
+        let acb = self.phase_order == PhaseOrder::Acb;
+        for i in 0..block.len() {
+            for c in 0..nch {
+                if Some(c) != self.derived_voltage {
+                    self.xbuf[c] = cols[c][i] * scales[c];
                 }
             }
-            RecordingKind::RmsLevel => {
-                let v = ch(ChannelKey::VPos).unwrap_or(&[]);
-                let (p, q, ip, iq) = (
-                    ch(ChannelKey::P),
-                    ch(ChannelKey::Q),
-                    ch(ChannelKey::Ip),
-                    ch(ChannelKey::Iq),
-                );
-                let s = &mut self.series;
-                for i in 0..block.len() {
-                    s.t.push(block.time[i]);
-                    let vi = v[i];
-                    s.push(Quantity::V1, vi);
-                    if self.has_current {
-                        let valid = vi.abs() >= MIN_REFERENCE_PU;
-                        let (pi, qi, ipi, iqi) = match (p, q, ip, iq) {
-                            (Some(p), Some(q), _, _) => {
-                                let (a, b) = if valid {
-                                    (p[i] / vi, q[i] / vi)
-                                } else {
-                                    (f64::NAN, f64::NAN)
-                                };
-                                (p[i], q[i], a, b)
-                            }
-                            (_, _, Some(ip), Some(iq)) => (vi * ip[i], vi * iq[i], ip[i], iq[i]),
-                            _ => (f64::NAN, f64::NAN, f64::NAN, f64::NAN),
-                        };
-                        s.push(Quantity::P, pi);
-                        s.push(Quantity::Q, qi);
-                        s.push(Quantity::Ip, ipi);
-                        s.push(Quantity::Iq, iqi);
-                        let i1 = if ipi.is_finite() {
-                            ipi.hypot(iqi)
-                        } else {
-                            pi.hypot(qi) / vi.abs().max(MIN_REFERENCE_PU)
-                        };
-                        s.push(Quantity::I1, i1);
-                        s.push(Quantity::IMax, i1);
-                    }
-                    if let Some(st) = status {
-                        s.push(Quantity::Status, st[i]);
+            if let Some(k) = self.derived_voltage {
+                self.xbuf[k] = -(self.xbuf[(k + 1) % 3] + self.xbuf[(k + 2) % 3]);
+            }
+            if acb {
+                if line {
+                    // Swapping b and c: v_ab → −v_ca, v_bc → −v_bc, v_ca → −v_ab.
+                    let (ab, bc, ca) = (self.xbuf[0], self.xbuf[1], self.xbuf[2]);
+                    self.xbuf[0] = -ca;
+                    self.xbuf[1] = -bc;
+                    self.xbuf[2] = -ab;
+                } else {
+                    self.xbuf.swap(1, 2);
+                }
+                if nch == 6 {
+                    self.xbuf.swap(4, 5);
+                }
+            }
+            if let Some(r) = residual {
+                self.xbuf[nch] = r[i] * vn_scale;
+            }
+            let xb = self.xbuf;
+            if xb[..nd].iter().any(|x| !x.is_finite()) && self.problem.is_none() {
+                let c = xb[..nd].iter().position(|x| !x.is_finite()).unwrap_or(0);
+                let name = if c < nch { keys[c].name() } else { "vn" };
+                self.problem = Some((format!("channel {name}"), block.time[i]));
+            }
+            if let Some(d) = &mut self.dft {
+                if d.ready() {
+                    for c in 0..3 {
+                        let dv = (xb[c] - d.oldest(c)).abs();
+                        if dv > self.deviation_max {
+                            self.deviation_max = dv;
+                        }
                     }
                 }
+                d.push(&xb[..nd]);
+            }
+            if let Some(st) = status {
+                self.status_min = self.status_min.min(st[i]);
+            }
+            let ready = self.dft.as_ref().is_some_and(|d| d.ready());
+            if ready {
+                if self.since_out == 0 {
+                    self.emit_waveform(block.time[i]);
+                    self.status_min = f64::INFINITY;
+                }
+                self.since_out += 1;
+                if self.since_out >= self.decimation {
+                    self.since_out = 0;
+                }
+            }
+        }
+    }
+
+    /// RMS-level values: one output point per sample, the currents from the
+    /// powers or the powers from the currents.
+    fn block_rms(&mut self, block: &Block<'_>) {
+        let ch = |k: ChannelKey| block.channels[k.index()];
+        let status = ch(ChannelKey::Status);
+        let v = ch(ChannelKey::VPos).unwrap_or(&[]);
+        let (p, q, ip, iq) = (
+            ch(ChannelKey::P),
+            ch(ChannelKey::Q),
+            ch(ChannelKey::Ip),
+            ch(ChannelKey::Iq),
+        );
+        let s = &mut self.series;
+        for i in 0..block.len() {
+            s.t.push(block.time[i]);
+            let vi = v[i];
+            s.push(Quantity::V1, vi);
+            if self.has_current {
+                let valid = vi.abs() >= MIN_REFERENCE_PU;
+                let (pi, qi, ipi, iqi) = match (p, q, ip, iq) {
+                    (Some(p), Some(q), _, _) => {
+                        let (a, b) = if valid {
+                            (p[i] / vi, q[i] / vi)
+                        } else {
+                            (f64::NAN, f64::NAN)
+                        };
+                        (p[i], q[i], a, b)
+                    }
+                    (_, _, Some(ip), Some(iq)) => (vi * ip[i], vi * iq[i], ip[i], iq[i]),
+                    _ => (f64::NAN, f64::NAN, f64::NAN, f64::NAN),
+                };
+                s.push(Quantity::P, pi);
+                s.push(Quantity::Q, qi);
+                s.push(Quantity::Ip, ipi);
+                s.push(Quantity::Iq, iqi);
+                let i1 = if ipi.is_finite() {
+                    ipi.hypot(iqi)
+                } else {
+                    pi.hypot(qi) / vi.abs().max(MIN_REFERENCE_PU)
+                };
+                s.push(Quantity::I1, i1);
+                s.push(Quantity::IMax, i1);
+            }
+            if let Some(st) = status {
+                s.push(Quantity::Status, st[i]);
             }
         }
     }

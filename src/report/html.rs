@@ -4,7 +4,9 @@
 //! itself, is inserted as markup.
 
 use super::fmt_value;
-use crate::rules::result::{Results, TestResult, Verdict};
+use crate::rules::result::{
+    CheckResult, DisturbanceResult, Results, TestResult, TripResult, Verdict,
+};
 use askama::Template;
 
 /// A rendered figure of a test.
@@ -144,95 +146,10 @@ fn test_view(k: usize, t: &TestResult, figures: Vec<RenderedFigure>) -> TestView
             .disturbances
             .iter()
             .enumerate()
-            .map(|(n, d)| DistRow {
-                n,
-                kind: d.kind.to_string(),
-                start: format!("{:.4} s", d.start_s),
-                end: d
-                    .end_s
-                    .map(|e| format!("{e:.4} s"))
-                    .unwrap_or_else(|| "not before the end".into()),
-                duration: s3(d.duration_s, "s"),
-                extreme: s3(Some(d.extreme_pu), "pu"),
-                balance: match d.unbalance_ratio {
-                    Some(u) => format!("{} (|V2|/|V1| {:.3})", d.balance, u),
-                    None => d.balance.to_string(),
-                },
-                residual: match (d.residual_v1_pu, d.residual_phase_pu) {
-                    (Some(v1), Some(p)) => {
-                        format!("V1 {v1:.3}; a/b/c {:.3}/{:.3}/{:.3} pu", p[0], p[1], p[2])
-                    }
-                    (Some(v1), None) => format!("V1 {v1:.3} pu"),
-                    _ => "–".into(),
-                },
-                edges: {
-                    let mut e = Vec::new();
-                    if let Some(i) = d.inception_s {
-                        e.push(format!("inception {i:.4} s"));
-                    }
-                    if let Some(c) = d.clearance_s {
-                        e.push(format!("clearance {c:.4} s"));
-                    }
-                    match (d.prefault_from, d.prefault_window_s) {
-                        (Some(k), _) => e.push(format!("references of disturbance #{k}")),
-                        (None, Some([a, b])) => e.push(format!("pre-fault {a:.3}–{b:.3} s")),
-                        _ => e.push("no pre-fault window".into()),
-                    }
-                    e.join("; ")
-                },
-            })
+            .map(|(n, d)| dist_row(n, d))
             .collect(),
-        trip: match (t.trip.tripped, t.trip.time_s) {
-            (true, Some(ts)) => format!(
-                "tripped at {ts:.4} s (from {})",
-                t.trip.method.map(|m| m.name()).unwrap_or_default()
-            ),
-            _ => format!(
-                "no trip{}",
-                t.trip
-                    .method
-                    .map(|m| format!(" (seen from: {m})"))
-                    .unwrap_or_default()
-            ),
-        } + &if t.trip.cessations.is_empty() {
-            String::new()
-        } else {
-            format!(
-                "; momentary cessation {}",
-                t.trip
-                    .cessations
-                    .iter()
-                    .map(|c| format!("{:.3}–{:.3} s", c[0], c[1]))
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            )
-        },
-        checks: t
-            .checks
-            .iter()
-            .map(|c| CheckRow {
-                id: c.id.clone(),
-                kind: c.check_type.name().replace('_', " "),
-                disturbance: c
-                    .disturbance
-                    .map(|d| format!("#{d}"))
-                    .unwrap_or_else(|| "–".into()),
-                verdict: label(c.verdict),
-                class: class(c.verdict),
-                reason: c
-                    .reason
-                    .map(|r| r.name().replace('_', " "))
-                    .unwrap_or_default(),
-                measured: fmt_value(c.measured, c.unit),
-                limit: fmt_value(c.limit, c.unit),
-                margin: fmt_value(c.margin, c.unit),
-                at: c
-                    .at_s
-                    .map(|a| format!("{a:.4} s"))
-                    .unwrap_or_else(|| "–".into()),
-                detail: c.detail.clone(),
-            })
-            .collect(),
+        trip: trip_text(&t.trip),
+        checks: t.checks.iter().map(check_row).collect(),
         figures,
         notes: t.notes.clone(),
         rules: t
@@ -240,6 +157,101 @@ fn test_view(k: usize, t: &TestResult, figures: Vec<RenderedFigure>) -> TestView
             .as_ref()
             .map(|r| format!("{} ({})", r.title.clone().unwrap_or_default(), r.path)),
         worst,
+    }
+}
+
+/// One row of the disturbance table.
+fn dist_row(n: usize, d: &DisturbanceResult) -> DistRow {
+    DistRow {
+        n,
+        kind: d.kind.to_string(),
+        start: format!("{:.4} s", d.start_s),
+        end: d
+            .end_s
+            .map(|e| format!("{e:.4} s"))
+            .unwrap_or_else(|| "not before the end".into()),
+        duration: s3(d.duration_s, "s"),
+        extreme: s3(Some(d.extreme_pu), "pu"),
+        balance: match d.unbalance_ratio {
+            Some(u) => format!("{} (|V2|/|V1| {:.3})", d.balance, u),
+            None => d.balance.to_string(),
+        },
+        residual: match (d.residual_v1_pu, d.residual_phase_pu) {
+            (Some(v1), Some(p)) => {
+                format!("V1 {v1:.3}; a/b/c {:.3}/{:.3}/{:.3} pu", p[0], p[1], p[2])
+            }
+            (Some(v1), None) => format!("V1 {v1:.3} pu"),
+            _ => "–".into(),
+        },
+        edges: {
+            let mut e = Vec::new();
+            if let Some(i) = d.inception_s {
+                e.push(format!("inception {i:.4} s"));
+            }
+            if let Some(c) = d.clearance_s {
+                e.push(format!("clearance {c:.4} s"));
+            }
+            match (d.prefault_from, d.prefault_window_s) {
+                (Some(k), _) => e.push(format!("references of disturbance #{k}")),
+                (None, Some([a, b])) => e.push(format!("pre-fault {a:.3}–{b:.3} s")),
+                _ => e.push("no pre-fault window".into()),
+            }
+            e.join("; ")
+        },
+    }
+}
+
+/// The trip and any momentary cessation, in words.
+fn trip_text(trip: &TripResult) -> String {
+    let what = match (trip.tripped, trip.time_s) {
+        (true, Some(ts)) => format!(
+            "tripped at {ts:.4} s (from {})",
+            trip.method.map(|m| m.name()).unwrap_or_default()
+        ),
+        _ => format!(
+            "no trip{}",
+            trip.method
+                .map(|m| format!(" (seen from: {m})"))
+                .unwrap_or_default()
+        ),
+    };
+    if trip.cessations.is_empty() {
+        what
+    } else {
+        format!(
+            "{what}; momentary cessation {}",
+            trip.cessations
+                .iter()
+                .map(|c| format!("{:.3}–{:.3} s", c[0], c[1]))
+                .collect::<Vec<_>>()
+                .join(", ")
+        )
+    }
+}
+
+/// One row of the check table.
+fn check_row(c: &CheckResult) -> CheckRow {
+    CheckRow {
+        id: c.id.clone(),
+        kind: c.check_type.name().replace('_', " "),
+        disturbance: c
+            .disturbance
+            .map(|d| format!("#{d}"))
+            .unwrap_or_else(|| "–".into()),
+        verdict: label(c.verdict),
+        class: class(c.verdict),
+        reason: c
+            .reason
+            .map(|r| r.name().replace('_', " "))
+            .unwrap_or_default(),
+        measured: fmt_value(c.measured, c.unit),
+        limit: fmt_value(c.limit, c.unit),
+        margin: fmt_value(c.margin, c.unit),
+        at: c
+            .at_s
+            .map(|a| format!("{a:.4} s"))
+            .unwrap_or_else(|| "–".into()),
+        detail: c.detail.clone(),
     }
 }
 

@@ -49,93 +49,7 @@ pub fn evaluate(inp: &ConnectionInput<'_>) -> CheckResult {
         TripMethod::None => "",
     };
     if let (true, Some(tt)) = (inp.trip.tripped, inp.trip.time_s) {
-        r.at_s = Some(tt);
-        r.measured = inp.v.and_then(|v| value_at(inp.t, v, tt));
-        let judged: Vec<&&CheckResult> = inp
-            .zone
-            .iter()
-            .filter(|c| c.permitted_trip.is_some())
-            .collect();
-        if let Some(c) = judged.iter().find(|c| c.permitted_trip == Some(false)) {
-            r.disturbance = c.disturbance;
-            return r.decide(
-                Verdict::Fail,
-                Reason::TripInsideZone,
-                format!(
-                    "the unit tripped at {tt:.3} s ({how}) while the voltage was inside the ride-through zone of check {} (disturbance #{})",
-                    c.id,
-                    c.disturbance.map_or("?".into(), |d| d.to_string())
-                ),
-            );
-        }
-        if let Some(c) = judged.first() {
-            r.disturbance = c.disturbance;
-            return r.decide(
-                Verdict::Pass,
-                Reason::PermittedTrip,
-                format!(
-                    "the unit tripped at {tt:.3} s ({how}) after the voltage had left the ride-through zone of {} (disturbance #{}): a permitted trip",
-                    judged
-                        .iter()
-                        .map(|c| c.id.as_str())
-                        .collect::<Vec<_>>()
-                        .join(", "),
-                    c.disturbance.map_or("?".into(), |d| d.to_string())
-                ),
-            );
-        }
-        // No zone check judged the trip: where was it?
-        let during = inp
-            .disturbances
-            .iter()
-            .enumerate()
-            .find(|(_, d)| tt >= d.start_s - inp.cycle_s && d.end_s.is_none_or(|e| tt <= e));
-        if let Some((k, d)) = during {
-            r.disturbance = Some(k);
-            let why = if inp.zone_checked.get(k).copied().unwrap_or(false) {
-                let reasons: Vec<String> = inp
-                    .zone
-                    .iter()
-                    .filter(|c| c.disturbance == Some(k))
-                    .map(|c| format!("{}: {}", c.id, c.detail))
-                    .collect();
-                format!(
-                    "whose zone checks could not decide ({})",
-                    reasons.join("; ")
-                )
-            } else {
-                format!(
-                    "an {} that no ride-through check of this rule set judges",
-                    d.kind.name()
-                )
-            };
-            return r.decide(
-                Verdict::Inconclusive,
-                Reason::TripNotJudged,
-                format!("the unit tripped at {tt:.3} s ({how}) during disturbance #{k}, {why}"),
-            );
-        }
-        if inp.v.is_none() {
-            return r.decide(
-                Verdict::Inconclusive,
-                Reason::VoltageUnobservable,
-                format!(
-                    "the unit tripped at {tt:.3} s ({how}); the voltage the rule set judges is not available, so whether a disturbance was under way is unknown"
-                ),
-            );
-        }
-        let then = r
-            .measured
-            .map(|v| format!(" while the applicable voltage was {v:.3} pu"))
-            .unwrap_or_default();
-        return r.decide(
-            Verdict::Fail,
-            Reason::TripOutsideDisturbance,
-            format!(
-                "the unit tripped at {tt:.3} s ({how}){then}, inside the normal band {}..{} pu with no disturbance under way: a failure to stay connected",
-                inp.band.0, inp.band.1
-            ),
-        );
+        return judge_trip(inp, r, tt, how);
     }
     if inp.trip.method == TripMethod::None {
         return r.decide(
@@ -174,6 +88,98 @@ pub fn evaluate(inp: &ConnectionInput<'_>) -> CheckResult {
         format!(
             "the unit stayed connected from {:.3} s to the end of the recording at {t_end:.3} s ({how})",
             inp.t[0]
+        ),
+    )
+}
+
+/// A trip at `tt`: failed inside a zone, permitted outside it, not judged
+/// during a disturbance no check decided, failed with no disturbance under way.
+fn judge_trip(inp: &ConnectionInput<'_>, mut r: CheckResult, tt: f64, how: &str) -> CheckResult {
+    r.at_s = Some(tt);
+    r.measured = inp.v.and_then(|v| value_at(inp.t, v, tt));
+    let judged: Vec<&&CheckResult> = inp
+        .zone
+        .iter()
+        .filter(|c| c.permitted_trip.is_some())
+        .collect();
+    if let Some(c) = judged.iter().find(|c| c.permitted_trip == Some(false)) {
+        r.disturbance = c.disturbance;
+        return r.decide(
+            Verdict::Fail,
+            Reason::TripInsideZone,
+            format!(
+                "the unit tripped at {tt:.3} s ({how}) while the voltage was inside the ride-through zone of check {} (disturbance #{})",
+                c.id,
+                c.disturbance.map_or("?".into(), |d| d.to_string())
+            ),
+        );
+    }
+    if let Some(c) = judged.first() {
+        r.disturbance = c.disturbance;
+        return r.decide(
+            Verdict::Pass,
+            Reason::PermittedTrip,
+            format!(
+                "the unit tripped at {tt:.3} s ({how}) after the voltage had left the ride-through zone of {} (disturbance #{}): a permitted trip",
+                judged
+                    .iter()
+                    .map(|c| c.id.as_str())
+                    .collect::<Vec<_>>()
+                    .join(", "),
+                c.disturbance.map_or("?".into(), |d| d.to_string())
+            ),
+        );
+    }
+    // No zone check judged the trip: where was it?
+    let during = inp
+        .disturbances
+        .iter()
+        .enumerate()
+        .find(|(_, d)| tt >= d.start_s - inp.cycle_s && d.end_s.is_none_or(|e| tt <= e));
+    if let Some((k, d)) = during {
+        r.disturbance = Some(k);
+        let why = if inp.zone_checked.get(k).copied().unwrap_or(false) {
+            let reasons: Vec<String> = inp
+                .zone
+                .iter()
+                .filter(|c| c.disturbance == Some(k))
+                .map(|c| format!("{}: {}", c.id, c.detail))
+                .collect();
+            format!(
+                "whose zone checks could not decide ({})",
+                reasons.join("; ")
+            )
+        } else {
+            format!(
+                "an {} that no ride-through check of this rule set judges",
+                d.kind.name()
+            )
+        };
+        return r.decide(
+            Verdict::Inconclusive,
+            Reason::TripNotJudged,
+            format!("the unit tripped at {tt:.3} s ({how}) during disturbance #{k}, {why}"),
+        );
+    }
+    if inp.v.is_none() {
+        return r.decide(
+            Verdict::Inconclusive,
+            Reason::VoltageUnobservable,
+            format!(
+                "the unit tripped at {tt:.3} s ({how}); the voltage the rule set judges is not available, so whether a disturbance was under way is unknown"
+            ),
+        );
+    }
+    let then = r
+        .measured
+        .map(|v| format!(" while the applicable voltage was {v:.3} pu"))
+        .unwrap_or_default();
+    r.decide(
+        Verdict::Fail,
+        Reason::TripOutsideDisturbance,
+        format!(
+            "the unit tripped at {tt:.3} s ({how}){then}, inside the normal band {}..{} pu with no disturbance under way: a failure to stay connected",
+            inp.band.0, inp.band.1
         ),
     )
 }

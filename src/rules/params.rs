@@ -15,7 +15,7 @@
 use crate::error::InputError;
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, HashMap};
 use std::path::Path;
 
 /// A number, or `"$name"` of a parameter.
@@ -100,18 +100,60 @@ pub fn resolve(
     source: &str,
     choices: &Choices,
 ) -> Result<Vec<Resolved>, Vec<InputError>> {
+    let at = Locator { path, text };
+    let errs = declaration_problems(&at, specs, choices);
+    if !errs.is_empty() {
+        return Err(errs);
+    }
+    let index: HashMap<&str, usize> = specs
+        .iter()
+        .enumerate()
+        .map(|(i, p)| (p.name.as_str(), i))
+        .collect();
+    let values = values(&at, specs, choices, &index)?;
     let mut errs = Vec::new();
-    let at = |i: usize, key: &str, msg: String| {
-        let mut e = InputError::new(path, msg).field(format!("parameters[{i}].{key}"));
-        if let Some((l, c)) = super::locate::locate(text, "parameters", Some(i), key) {
+    let mut out = Vec::new();
+    for (i, p) in specs.iter().enumerate() {
+        match ranged(&at, i, p, &values, &index, choices, source) {
+            Ok(r) => out.push(r),
+            Err(e) => errs.push(e),
+        }
+    }
+    if errs.is_empty() {
+        Ok(out)
+    } else {
+        Err(errs)
+    }
+}
+
+/// Errors located at a key of one parameter declaration.
+struct Locator<'a> {
+    path: &'a Path,
+    text: &'a str,
+}
+
+impl Locator<'_> {
+    fn at(&self, i: usize, key: &str, msg: String) -> InputError {
+        let mut e = InputError::new(self.path, msg).field(format!("parameters[{i}].{key}"));
+        if let Some((l, c)) = super::locate::locate(self.text, "parameters", Some(i), key) {
             e = e.line(l).column(c);
         }
         e
-    };
+    }
+}
+
+/// Names that are not identifiers or declared twice, and choices of
+/// parameters the rule set does not declare.
+fn declaration_problems(
+    at: &Locator<'_>,
+    specs: &[ParameterSpec],
+    choices: &Choices,
+) -> Vec<InputError> {
+    let mut errs = Vec::new();
     let mut seen = std::collections::HashSet::new();
     for (i, p) in specs.iter().enumerate() {
         if !ident_ok(&p.name) {
-            errs.push(at(
+            errs.push(at.at(
                 i,
                 "name",
                 format!(
@@ -120,7 +162,7 @@ pub fn resolve(
                 ),
             ));
         } else if !seen.insert(p.name.clone()) {
-            errs.push(at(
+            errs.push(at.at(
                 i,
                 "name",
                 format!("parameter '{}' is declared twice", p.name),
@@ -131,7 +173,7 @@ pub fn resolve(
         if !specs.iter().any(|p| &p.name == name) {
             let names: Vec<&str> = specs.iter().map(|p| p.name.as_str()).collect();
             errs.push(
-                InputError::new(path, format!("the rule set has no parameter '{name}'")).hint(
+                InputError::new(at.path, format!("the rule set has no parameter '{name}'")).hint(
                     if names.is_empty() {
                         "this rule set declares no parameters".to_string()
                     } else {
@@ -141,35 +183,45 @@ pub fn resolve(
             );
         }
     }
-    if !errs.is_empty() {
-        return Err(errs);
+    errs
+}
+
+/// The value of a number or `"$parameter"` (`None` while the parameter has
+/// no value yet).
+fn lookup(
+    v: &NumOrRef,
+    index: &HashMap<&str, usize>,
+    values: &BTreeMap<String, f64>,
+) -> Result<Option<f64>, String> {
+    match v {
+        NumOrRef::Num(x) => Ok(Some(*x)),
+        NumOrRef::Ref(r) => {
+            let name = r
+                .strip_prefix('$')
+                .ok_or_else(|| format!("'{r}' is neither a number nor \"$parameter\""))?;
+            if !index.contains_key(name) {
+                return Err(format!("'{r}' refers to an undeclared parameter"));
+            }
+            Ok(values.get(name).copied())
+        }
     }
-    // Values: chosen, else default; a default may refer to one other
-    // parameter, so each chain of references is followed once (linear in
-    // the number of parameters, cycles detected on the way).
-    let index: std::collections::HashMap<&str, usize> = specs
-        .iter()
-        .enumerate()
-        .map(|(i, p)| (p.name.as_str(), i))
-        .collect();
+}
+
+/// Values: chosen, else default; a default may refer to one other
+/// parameter, so each chain of references is followed once (linear in the
+/// number of parameters, cycles detected on the way). Parameters in a cycle
+/// stay without a value.
+fn values(
+    at: &Locator<'_>,
+    specs: &[ParameterSpec],
+    choices: &Choices,
+    index: &HashMap<&str, usize>,
+) -> Result<BTreeMap<String, f64>, Vec<InputError>> {
+    let mut errs = Vec::new();
     let mut values: BTreeMap<String, f64> = BTreeMap::new();
     for (n, (v, _)) in choices {
         values.insert(n.clone(), *v);
     }
-    let lookup = |v: &NumOrRef, values: &BTreeMap<String, f64>| -> Result<Option<f64>, String> {
-        match v {
-            NumOrRef::Num(x) => Ok(Some(*x)),
-            NumOrRef::Ref(r) => {
-                let name = r
-                    .strip_prefix('$')
-                    .ok_or_else(|| format!("'{r}' is neither a number nor \"$parameter\""))?;
-                if !index.contains_key(name) {
-                    return Err(format!("'{r}' refers to an undeclared parameter"));
-                }
-                Ok(values.get(name).copied())
-            }
-        }
-    };
     // 0: not yet seen, 1: on the chain being followed, 2: done.
     let mut state = vec![0u8; specs.len()];
     for start in 0..specs.len() {
@@ -189,11 +241,15 @@ pub fn resolve(
                 NumOrRef::Ref(r) => match r.strip_prefix('$').and_then(|n| index.get(n)) {
                     Some(j) => i = *j,
                     None => {
-                        errs.push(at(
-                            i,
-                            "default",
-                            lookup(&specs[i].default, &values).err().unwrap_or_default(),
-                        ));
+                        errs.push(
+                            at.at(
+                                i,
+                                "default",
+                                lookup(&specs[i].default, index, &values)
+                                    .err()
+                                    .unwrap_or_default(),
+                            ),
+                        );
                         break None;
                     }
                 },
@@ -206,84 +262,82 @@ pub fn resolve(
             }
         }
     }
-    if !errs.is_empty() {
-        return Err(errs);
-    }
-    let mut out = Vec::new();
-    for (i, p) in specs.iter().enumerate() {
-        let Some(value) = values.get(&p.name).copied() else {
-            errs.push(at(
-                i,
-                "default",
-                format!(
-                    "the default of '{}' refers to parameters in a cycle",
-                    p.name
-                ),
-            ));
-            continue;
-        };
-        let lo = lookup(&p.range[0], &values);
-        let hi = lookup(&p.range[1], &values);
-        let (lo, hi) = match (lo, hi) {
-            (Ok(Some(a)), Ok(Some(b))) => (a, b),
-            (Err(m), _) | (_, Err(m)) => {
-                errs.push(at(i, "range", m));
-                continue;
-            }
-            _ => {
-                errs.push(at(
-                    i,
-                    "range",
-                    "the range refers to a parameter without a value".into(),
-                ));
-                continue;
-            }
-        };
-        if !(lo <= hi) {
-            errs.push(at(
-                i,
-                "range",
-                format!("range [{lo}, {hi}] of '{}' is empty", p.name),
-            ));
-            continue;
-        }
-        let origin = choices
-            .get(&p.name)
-            .map_or("default".to_string(), |c| c.1.clone());
-        let eps = 1e-9 * (1.0 + lo.abs().max(hi.abs()));
-        if !(value >= lo - eps && value <= hi + eps) {
-            let mut e = InputError::new(
-                path,
-                format!(
-                    "parameter '{}' = {value} {} ({origin}) is outside its allowed range {lo} to {hi} {}",
-                    p.name, p.unit, p.unit
-                ),
-            )
-            .field(format!("parameters[{i}] ({})", p.name))
-            .hint(format!("the range follows the rule set's source: {source}"));
-            if origin == "default" {
-                if let Some((l, c)) = super::locate::locate(text, "parameters", Some(i), "default")
-                {
-                    e = e.line(l).column(c);
-                }
-            }
-            errs.push(e);
-            continue;
-        }
-        out.push(Resolved {
-            name: p.name.clone(),
-            unit: p.unit.clone(),
-            value,
-            range: (lo, hi),
-            origin,
-            description: p.description.clone(),
-        });
-    }
     if errs.is_empty() {
-        Ok(out)
+        Ok(values)
     } else {
         Err(errs)
     }
+}
+
+/// Parameter `i` with its value checked against its range.
+fn ranged(
+    at: &Locator<'_>,
+    i: usize,
+    p: &ParameterSpec,
+    values: &BTreeMap<String, f64>,
+    index: &HashMap<&str, usize>,
+    choices: &Choices,
+    source: &str,
+) -> Result<Resolved, InputError> {
+    let Some(value) = values.get(&p.name).copied() else {
+        return Err(at.at(
+            i,
+            "default",
+            format!(
+                "the default of '{}' refers to parameters in a cycle",
+                p.name
+            ),
+        ));
+    };
+    let lo = lookup(&p.range[0], index, values);
+    let hi = lookup(&p.range[1], index, values);
+    let (lo, hi) = match (lo, hi) {
+        (Ok(Some(a)), Ok(Some(b))) => (a, b),
+        (Err(m), _) | (_, Err(m)) => return Err(at.at(i, "range", m)),
+        _ => {
+            return Err(at.at(
+                i,
+                "range",
+                "the range refers to a parameter without a value".into(),
+            ))
+        }
+    };
+    if !(lo <= hi) {
+        return Err(at.at(
+            i,
+            "range",
+            format!("range [{lo}, {hi}] of '{}' is empty", p.name),
+        ));
+    }
+    let origin = choices
+        .get(&p.name)
+        .map_or("default".to_string(), |c| c.1.clone());
+    let eps = 1e-9 * (1.0 + lo.abs().max(hi.abs()));
+    if !(value >= lo - eps && value <= hi + eps) {
+        let mut e = InputError::new(
+            at.path,
+            format!(
+                "parameter '{}' = {value} {} ({origin}) is outside its allowed range {lo} to {hi} {}",
+                p.name, p.unit, p.unit
+            ),
+        )
+        .field(format!("parameters[{i}] ({})", p.name))
+        .hint(format!("the range follows the rule set's source: {source}"));
+        if origin == "default" {
+            if let Some((l, c)) = super::locate::locate(at.text, "parameters", Some(i), "default") {
+                e = e.line(l).column(c);
+            }
+        }
+        return Err(e);
+    }
+    Ok(Resolved {
+        name: p.name.clone(),
+        unit: p.unit.clone(),
+        value,
+        range: (lo, hi),
+        origin,
+        description: p.description.clone(),
+    })
 }
 
 /// Replaces every `"$name"` / `'$name'` / `$name` of a declared parameter in

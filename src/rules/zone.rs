@@ -408,6 +408,31 @@ pub fn deepest(t: &[f64], v: &[f64], timing: &Timing, bound: Bound) -> Vec<f64> 
         .collect()
 }
 
+/// The measured value and limit at scan point `k`.
+fn set_values(r: &mut CheckResult, scan: &ZoneScan, k: usize) {
+    let (m, l) = scan.values_at(k);
+    r.measured = m;
+    r.limit = l;
+}
+
+/// The momentary cessations from `t0` on, as a clause of the sentence.
+fn cessation_note(conn: &ConnectionFacts, t0: f64) -> String {
+    let noted = conn
+        .cessations
+        .iter()
+        .filter(|(a, _)| *a >= t0)
+        .map(|(a, b)| format!("{a:.3}–{b:.3} s"))
+        .collect::<Vec<_>>();
+    if noted.is_empty() {
+        String::new()
+    } else {
+        format!(
+            "; momentary cessation (current blocked) at {}",
+            noted.join(", ")
+        )
+    }
+}
+
 /// Verdict, reason, margin and sentence from a scan and the trip (no short-fault handling).
 fn judge(
     mut r: CheckResult,
@@ -419,64 +444,9 @@ fn judge(
     let t0 = timing.t0;
     r.left_zone_s = scan.first_outside;
     r.unit = scan.unit;
-    let set = |r: &mut CheckResult, k: usize| {
-        let (m, l) = scan.values_at(k);
-        r.measured = m;
-        r.limit = l;
-    };
-    let noted_cessation = conn
-        .cessations
-        .iter()
-        .filter(|(a, _)| *a >= t0)
-        .map(|(a, b)| format!("{a:.3}–{b:.3} s"))
-        .collect::<Vec<_>>();
-    let cess_note = if noted_cessation.is_empty() {
-        String::new()
-    } else {
-        format!(
-            "; momentary cessation (current blocked) at {}",
-            noted_cessation.join(", ")
-        )
-    };
+    let cess_note = cessation_note(conn, t0);
     if let Some(tt) = conn.trip_s {
-        return match scan.first_outside {
-            Some(o) if o <= tt => {
-                r.permitted_trip = Some(true);
-                r.unit = Unit::S;
-                r.measured = Some(tt - o);
-                r.limit = Some(0.0);
-                r.margin = Some(tt - o);
-                r.at_s = Some(tt);
-                r.decide(
-                    Verdict::Pass,
-                    Reason::PermittedTrip,
-                    format!(
-                        "permitted trip: the voltage left the ride-through zone at {o:.3} s and the unit tripped {:.3} s later, at {tt:.3} s{cess_note}",
-                        tt - o
-                    ),
-                )
-            }
-            _ => {
-                r.permitted_trip = Some(false);
-                let at = scan.at_or_before(tt);
-                let h = at.map(|k| scan.headroom_at(k)).filter(|h| h.is_finite());
-                if let Some(k) = at {
-                    set(&mut r, k);
-                }
-                r.margin = h.map(|h| -h);
-                r.at_s = Some(tt);
-                let then = at
-                    .map(|k| format!("; at the trip: {}", scan.describe(k)))
-                    .unwrap_or_default();
-                r.decide(
-                    Verdict::Fail,
-                    Reason::TripInsideZone,
-                    format!(
-                        "the unit tripped at {tt:.3} s while the voltage was inside the ride-through zone{then}{cess_note}"
-                    ),
-                )
-            }
-        };
+        return judge_trip(r, scan, tt, &cess_note);
     }
     if cessation == Cessation::Forbidden {
         let inside_until = scan.first_outside.unwrap_or(f64::INFINITY);
@@ -510,10 +480,64 @@ fn judge(
             ),
         );
     }
+    judge_connected(r, scan, timing, &cess_note)
+}
+
+/// A trip at `tt`: permitted once the voltage had left the zone, a failure
+/// inside it (margin: minus the headroom at the trip).
+fn judge_trip(mut r: CheckResult, scan: &ZoneScan, tt: f64, cess_note: &str) -> CheckResult {
+    match scan.first_outside {
+        Some(o) if o <= tt => {
+            r.permitted_trip = Some(true);
+            r.unit = Unit::S;
+            r.measured = Some(tt - o);
+            r.limit = Some(0.0);
+            r.margin = Some(tt - o);
+            r.at_s = Some(tt);
+            r.decide(
+                Verdict::Pass,
+                Reason::PermittedTrip,
+                format!(
+                    "permitted trip: the voltage left the ride-through zone at {o:.3} s and the unit tripped {:.3} s later, at {tt:.3} s{cess_note}",
+                    tt - o
+                ),
+            )
+        }
+        _ => {
+            r.permitted_trip = Some(false);
+            let at = scan.at_or_before(tt);
+            let h = at.map(|k| scan.headroom_at(k)).filter(|h| h.is_finite());
+            if let Some(k) = at {
+                set_values(&mut r, scan, k);
+            }
+            r.margin = h.map(|h| -h);
+            r.at_s = Some(tt);
+            let then = at
+                .map(|k| format!("; at the trip: {}", scan.describe(k)))
+                .unwrap_or_default();
+            r.decide(
+                Verdict::Fail,
+                Reason::TripInsideZone,
+                format!(
+                    "the unit tripped at {tt:.3} s while the voltage was inside the ride-through zone{then}{cess_note}"
+                ),
+            )
+        }
+    }
+}
+
+/// No trip, and the data covers the requirement: rode through beyond the
+/// zone, or stayed inside it with the smallest headroom as the margin.
+fn judge_connected(
+    mut r: CheckResult,
+    scan: &ZoneScan,
+    timing: &Timing,
+    cess_note: &str,
+) -> CheckResult {
     match scan.first_outside {
         Some(o) => {
             if let Some(k) = scan.smallest_until(f64::INFINITY) {
-                set(&mut r, k);
+                set_values(&mut r, scan, k);
                 r.at_s = Some(scan.t[k]);
             }
             r.margin = None;
@@ -532,7 +556,7 @@ fn judge(
                 .smallest_until(until)
                 .or(scan.smallest_until(f64::INFINITY));
             if let Some(k) = k {
-                set(&mut r, k);
+                set_values(&mut r, scan, k);
                 r.margin = Some(scan.headroom_at(k)).filter(|h| h.is_finite());
                 r.at_s = Some(scan.t[k]);
             }

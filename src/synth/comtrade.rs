@@ -36,6 +36,17 @@ fn full_scale(dt: DataType) -> f64 {
     }
 }
 
+impl Chan {
+    /// The value as stored: secondary where the channel says so.
+    fn stored(&self, v: f64) -> f64 {
+        if self.secondary {
+            v * self.ratio.1 / self.ratio.0
+        } else {
+            v
+        }
+    }
+}
+
 /// Writes the COMTRADE files for `spec` at `out` (`.cfg`, with `.dat`
 /// beside it, or `.cff`). Returns the number of samples.
 pub fn write_comtrade(
@@ -60,11 +71,45 @@ pub fn write_comtrade(
             "COMTRADE timestamps in µs overflow 32 bits after 4294 s".into(),
         ));
     }
+    let chans = scaled_channels(spec, dt, rev)?;
+    let n = (spec.duration_s * spec.sample_rate_hz).round() as u64 + 1;
+    let cfg = configuration(spec, &chans, dt, rev, n);
+    let data = data_records(spec, &chans, dt)?;
+    if let Some(dir) = out.parent().filter(|d| !d.as_os_str().is_empty()) {
+        std::fs::create_dir_all(dir)?;
+    }
+    if cff {
+        let mut f = std::io::BufWriter::new(std::fs::File::create(out)?);
+        f.write_all(b"--- file type: CFG ---\r\n")?;
+        f.write_all(cfg.as_bytes())?;
+        f.write_all(b"--- file type: INF ---\r\n--- file type: HDR ---\r\n")?;
+        match dt {
+            DataType::Ascii => f.write_all(b"--- file type: DAT ASCII ---\r\n")?,
+            _ => write!(
+                f,
+                "--- file type: DAT {}: {} ---\r\n",
+                dt.name(),
+                data.len()
+            )?,
+        }
+        f.write_all(&data)?;
+        f.flush()?;
+    } else {
+        std::fs::write(out, cfg.as_bytes())?;
+        let upper = out
+            .extension()
+            .and_then(|e| e.to_str())
+            .is_some_and(|e| e.chars().any(|c| c.is_ascii_uppercase()));
+        std::fs::write(out.with_extension(if upper { "DAT" } else { "dat" }), &data)?;
+    }
+    Ok(n)
+}
+
+/// The analog channels of the layout, each with the multiplier `a` that
+/// lets its largest stored value use most of the data type's range (a first
+/// pass over the signals).
+fn scaled_channels(spec: &SynthSpec, dt: DataType, rev: Revision) -> std::io::Result<Vec<Chan>> {
     let use_secondary = rev != Revision::R1991;
-    let n_analog = match spec.layout {
-        SynthLayout::Waveform => 6,
-        SynthLayout::Rms => 3,
-    };
     let vunit = spec.voltage_unit.label().to_string();
     let cunit = spec.current_unit.label().to_string();
     let (pa, pb, pc) = match spec.connection {
@@ -96,18 +141,11 @@ pub fn write_comtrade(
             mk("Q", "", "pu", (1.0, 1.0), false),
         ],
     };
-    let stored = |c: &Chan, v: f64| {
-        if c.secondary {
-            v * c.ratio.1 / c.ratio.0
-        } else {
-            v
-        }
-    };
-    // First pass: the largest stored value of each channel.
+    let n_analog = chans.len();
     let mut peak = vec![0.0f64; n_analog];
     generate(spec, |_, _, vals| {
         for k in 0..n_analog {
-            peak[k] = peak[k].max(stored(&chans[k], vals[k]).abs());
+            peak[k] = peak[k].max(chans[k].stored(vals[k]).abs());
         }
         Ok(())
     })?;
@@ -118,9 +156,13 @@ pub fn write_comtrade(
             peak[k].max(1e-12) / full_scale(dt)
         };
     }
-    let n = (spec.duration_s * spec.sample_rate_hz).round() as u64 + 1;
+    Ok(chans)
+}
+
+/// The configuration text (CR/LF line ends, clause 7 of C37.111-2013).
+fn configuration(spec: &SynthSpec, chans: &[Chan], dt: DataType, rev: Revision, n: u64) -> String {
+    let n_analog = chans.len();
     let nd = usize::from(spec.status_column);
-    // Configuration text (CR/LF line ends, clause 7 of C37.111-2013).
     let mut cfg = String::new();
     let mut line = |s: String| {
         cfg.push_str(&s);
@@ -185,7 +227,14 @@ pub fn write_comtrade(
         line("0,0".into());
         line("0,0".into());
     }
-    // Data.
+    cfg
+}
+
+/// The data records: sample number, time stamp in µs, the analog values
+/// over `a`, and the status.
+fn data_records(spec: &SynthSpec, chans: &[Chan], dt: DataType) -> std::io::Result<Vec<u8>> {
+    let n_analog = chans.len();
+    let nd = usize::from(spec.status_column);
     let mut data: Vec<u8> = Vec::new();
     let mut text = String::new();
     generate(spec, |m, t, vals| {
@@ -196,7 +245,7 @@ pub fn write_comtrade(
                 text.clear();
                 let _ = write!(text, "{},{}", m + 1, ts);
                 for k in 0..n_analog {
-                    let x = (stored(&chans[k], vals[k]) / chans[k].a).round() as i64;
+                    let x = (chans[k].stored(vals[k]) / chans[k].a).round() as i64;
                     let _ = write!(text, ",{x}");
                 }
                 if nd == 1 {
@@ -209,7 +258,7 @@ pub fn write_comtrade(
                 data.extend_from_slice(&((m + 1) as u32).to_le_bytes());
                 data.extend_from_slice(&ts.to_le_bytes());
                 for k in 0..n_analog {
-                    let v = stored(&chans[k], vals[k]) / chans[k].a;
+                    let v = chans[k].stored(vals[k]) / chans[k].a;
                     match dt {
                         DataType::Binary => data.extend_from_slice(
                             &(v.round().clamp(-32767.0, 32767.0) as i16).to_le_bytes(),
@@ -227,32 +276,5 @@ pub fn write_comtrade(
         }
         Ok(())
     })?;
-    if let Some(dir) = out.parent().filter(|d| !d.as_os_str().is_empty()) {
-        std::fs::create_dir_all(dir)?;
-    }
-    if cff {
-        let mut f = std::io::BufWriter::new(std::fs::File::create(out)?);
-        f.write_all(b"--- file type: CFG ---\r\n")?;
-        f.write_all(cfg.as_bytes())?;
-        f.write_all(b"--- file type: INF ---\r\n--- file type: HDR ---\r\n")?;
-        match dt {
-            DataType::Ascii => f.write_all(b"--- file type: DAT ASCII ---\r\n")?,
-            _ => write!(
-                f,
-                "--- file type: DAT {}: {} ---\r\n",
-                dt.name(),
-                data.len()
-            )?,
-        }
-        f.write_all(&data)?;
-        f.flush()?;
-    } else {
-        std::fs::write(out, cfg.as_bytes())?;
-        let upper = out
-            .extension()
-            .and_then(|e| e.to_str())
-            .is_some_and(|e| e.chars().any(|c| c.is_ascii_uppercase()));
-        std::fs::write(out.with_extension(if upper { "DAT" } else { "dat" }), &data)?;
-    }
-    Ok(n)
+    Ok(data)
 }

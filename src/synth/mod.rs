@@ -217,11 +217,216 @@ impl SynthSpec {
     }
 }
 
+/// The grid voltage at one instant (pu of the phase base) and where it is
+/// in the fault.
+struct Grid {
+    mags: [f64; 3],
+    ang: f64,
+    /// Inside the unit's fault response (a step back to normal between
+    /// faults of a step profile is not).
+    in_fault: bool,
+    /// After the fault began and outside the fault response: active power
+    /// ramps back.
+    after: bool,
+}
+
+/// The voltage profile of the recording: one fault with per-phase
+/// residuals and a phase jump, or a step profile.
+struct Profile<'a> {
+    spec: &'a SynthSpec,
+    fault_start: f64,
+    fault_end: f64,
+    recovery: f64,
+    jump: f64,
+}
+
+impl<'a> Profile<'a> {
+    fn new(spec: &'a SynthSpec) -> Self {
+        let (fault_start, fault_end) = match (spec.steps.first(), spec.steps.last()) {
+            (Some(a), Some(b)) if spec.steps.len() > 1 => (a.0, b.0),
+            _ => (
+                spec.fault_start_s,
+                spec.fault_start_s + spec.fault_duration_s,
+            ),
+        };
+        Profile {
+            spec,
+            fault_start,
+            fault_end,
+            recovery: spec.steps.last().map_or(spec.recovery_pu, |s| s.1),
+            jump: spec.phase_jump_deg.to_radians(),
+        }
+    }
+
+    /// The fault's voltage at t: per phase residuals, or the step profile.
+    fn fault_level(&self, t: f64) -> [f64; 3] {
+        let spec = self.spec;
+        match spec.steps.iter().rev().find(|s| s.0 <= t) {
+            Some(s) if !spec.steps.is_empty() => [s.1; 3],
+            _ => spec.residual_pu,
+        }
+    }
+
+    fn at(&self, t: f64) -> Grid {
+        let spec = self.spec;
+        let in_window = t >= self.fault_start && t < self.fault_end;
+        let (mags, ang) = if in_window {
+            (self.fault_level(t), self.jump)
+        } else if t >= self.fault_end {
+            ([self.recovery; 3], 0.0)
+        } else {
+            ([spec.prefault_pu; 3], 0.0)
+        };
+        let in_fault = in_window
+            && (spec.steps.is_empty() || mags.iter().any(|m| (m - spec.prefault_pu).abs() > 0.05));
+        Grid {
+            mags,
+            ang,
+            in_fault,
+            after: t >= self.fault_start && !in_fault,
+        }
+    }
+}
+
 /// Unit controller state.
 struct Unit {
     ip: f64,
     iq: f64,
-    ip_fault: f64,
+    iq2: f64,
+    /// Pre-fault active and reactive current, pu.
+    ip0: f64,
+    iq0: f64,
+    /// First-order lag factor per sample.
+    alpha: f64,
+}
+
+impl Unit {
+    /// One sample of the controller: reactive current towards `k·ΔV`
+    /// (limited), active current within the remaining room, negative-sequence
+    /// current towards `−k2·|V2|`. Returns the injected `(ip, iq, iq2)`:
+    /// zero while tripped or blocked.
+    fn step(&mut self, spec: &SynthSpec, v1: f64, v2m: f64, g: &Grid, off: bool) -> [f64; 3] {
+        let dt = 1.0 / spec.sample_rate_hz;
+        let dv = v1 - spec.prefault_pu;
+        let extra = if dv.abs() > spec.dead_band_pu {
+            let mag = match spec.dead_band_mode {
+                DeadBandMode::Offset => spec.k_gain * (dv.abs() - spec.dead_band_pu),
+                DeadBandMode::Full => spec.k_gain * dv.abs(),
+            };
+            -mag * dv.signum()
+        } else {
+            0.0
+        };
+        let lim = spec.current_limit_pu;
+        let iq_target = (self.iq0 + extra).clamp(-lim, lim);
+        self.iq += (iq_target - self.iq) * self.alpha;
+        if g.in_fault {
+            let room = (lim * lim - self.iq * self.iq).max(0.0).sqrt();
+            self.ip = self.ip0.min(room);
+        } else if g.after {
+            let room = (lim * lim - self.iq * self.iq).max(0.0).sqrt();
+            self.ip = (self.ip + spec.p_ramp_pu_per_s * dt)
+                .min(self.ip0)
+                .min(room);
+        }
+        let iq2_target = if v2m > spec.dead_band_pu {
+            match spec.dead_band_mode {
+                DeadBandMode::Offset => -spec.k2_gain * (v2m - spec.dead_band_pu),
+                DeadBandMode::Full => -spec.k2_gain * v2m,
+            }
+        } else {
+            0.0
+        };
+        self.iq2 += (iq2_target - self.iq2) * self.alpha;
+        if off {
+            [0.0; 3]
+        } else {
+            [self.ip, self.iq, self.iq2]
+        }
+    }
+}
+
+/// Turns phasors into the file's values: instantaneous waveforms with
+/// harmonics and noise, or RMS-level values, in the file's units.
+struct Output<'a> {
+    spec: &'a SynthSpec,
+    rng: ChaCha8Rng,
+    normal: Normal<f64>,
+    /// Angular frequency, rad/s.
+    w: f64,
+    vfactor: f64,
+    ifactor: f64,
+}
+
+impl Output<'_> {
+    /// Harmonics and noise of phase `k` at `t`.
+    fn harm(&mut self, k: usize, t: f64) -> f64 {
+        let spec = self.spec;
+        let mut h = 0.0;
+        for (order, amp) in &spec.harmonics {
+            let o = *order as f64;
+            h += SQRT_2 * amp * (o * (self.w * t - 2.0 * PI * k as f64 / 3.0)).cos();
+        }
+        if spec.noise_pu > 0.0 {
+            h += spec.noise_pu * self.normal.sample(&mut self.rng);
+        }
+        h
+    }
+
+    fn waveform(
+        &mut self,
+        vals: &mut SampleValues,
+        t: f64,
+        phase_v: [Complex64; 3],
+        phase_i: [Complex64; 3],
+        tripped: bool,
+    ) {
+        let spec = self.spec;
+        let acb = spec.phase_order == crate::model::PhaseOrder::Acb;
+        let rot = Complex64::from_polar(1.0, self.w * t);
+        let inst = |x: Complex64| SQRT_2 * (x * rot).re;
+        let mut pv = [0.0; 3];
+        for k in 0..3 {
+            pv[k] = inst(phase_v[k]) + self.harm(k, t);
+        }
+        if acb {
+            // The file's b and c columns hold phases c and b.
+            pv.swap(1, 2);
+        }
+        let vout = match spec.connection {
+            Connection::PhaseToNeutral => pv,
+            Connection::PhaseToPhase => [pv[0] - pv[1], pv[1] - pv[2], pv[2] - pv[0]],
+        };
+        for k in 0..3 {
+            vals[k] = vout[k] * self.vfactor;
+        }
+        for k in 0..3 {
+            let ival = if tripped {
+                0.0
+            } else {
+                inst(phase_i[k]) + self.harm(k, t)
+            };
+            vals[3 + k] = ival * self.ifactor;
+        }
+        if acb {
+            vals.swap(4, 5);
+        }
+    }
+
+    fn rms(&mut self, vals: &mut SampleValues, v1: Complex64, i1: Complex64) {
+        let spec = self.spec;
+        let mut noise = || {
+            if spec.noise_pu > 0.0 {
+                spec.noise_pu * self.normal.sample(&mut self.rng)
+            } else {
+                0.0
+            }
+        };
+        let s = v1 * i1.conj();
+        vals[0] = v1.norm() + noise();
+        vals[1] = s.re + noise();
+        vals[2] = s.im + noise();
+    }
 }
 
 /// Values of one sample in the file's units: waveform layout
@@ -234,119 +439,55 @@ pub fn generate(
     mut emit: impl FnMut(u64, f64, &SampleValues) -> std::io::Result<()>,
 ) -> std::io::Result<u64> {
     let r = &spec.ratings;
-    let w = 2.0 * PI * spec.frequency_hz;
     let dt = 1.0 / spec.sample_rate_hz;
     let n = (spec.duration_s * spec.sample_rate_hz).round() as u64 + 1;
     let a = sequence::a();
     let a2 = a * a;
-    let jump = spec.phase_jump_deg.to_radians();
-    let (fault_start, fault_end) = match (spec.steps.first(), spec.steps.last()) {
-        (Some(a), Some(b)) if spec.steps.len() > 1 => (a.0, b.0),
-        _ => (
-            spec.fault_start_s,
-            spec.fault_start_s + spec.fault_duration_s,
-        ),
-    };
-    let recovery = spec.steps.last().map_or(spec.recovery_pu, |s| s.1);
-    // The fault's voltage at t: per phase residuals, or the step profile.
-    let fault_level = |t: f64| -> [f64; 3] {
-        match spec.steps.iter().rev().find(|s| s.0 <= t) {
-            Some(s) if !spec.steps.is_empty() => [s.1; 3],
-            _ => spec.residual_pu,
-        }
-    };
-    let acb = spec.phase_order == crate::model::PhaseOrder::Acb;
+    let profile = Profile::new(spec);
     let ip0 = spec.p0_pu / spec.prefault_pu;
     let iq0 = spec.q0_pu / spec.prefault_pu;
     let mut unit = Unit {
         ip: ip0,
         iq: iq0,
-        ip_fault: ip0,
+        iq2: 0.0,
+        ip0,
+        iq0,
+        alpha: if spec.iq_tau_s > 0.0 {
+            1.0 - (-dt / spec.iq_tau_s).exp()
+        } else {
+            1.0
+        },
     };
-    let mut iq2 = 0.0;
-    let alpha = if spec.iq_tau_s > 0.0 {
-        1.0 - (-dt / spec.iq_tau_s).exp()
-    } else {
-        1.0
+    let mut out = Output {
+        spec,
+        rng: ChaCha8Rng::seed_from_u64(spec.seed),
+        normal: Normal::new(0.0, 1.0).map_err(std::io::Error::other)?,
+        w: 2.0 * PI * spec.frequency_hz,
+        vfactor: match (spec.voltage_unit, spec.connection) {
+            (VoltageUnit::Pu, Connection::PhaseToNeutral) => 1.0,
+            (VoltageUnit::Pu, Connection::PhaseToPhase) => 1.0 / 3f64.sqrt(),
+            (u, _) => r.voltage_base_phase_v() / u.factor(),
+        },
+        ifactor: match spec.current_unit {
+            CurrentUnit::Pu => 1.0,
+            u => r.current_base_a() / u.factor(),
+        },
     };
-    let mut rng = ChaCha8Rng::seed_from_u64(spec.seed);
-    let normal = Normal::new(0.0, 1.0).map_err(std::io::Error::other)?;
-    let vbase_phase = r.voltage_base_phase_v();
-    let ibase = r.current_base_a();
-    let vfactor = match (spec.voltage_unit, spec.connection) {
-        (VoltageUnit::Pu, Connection::PhaseToNeutral) => 1.0,
-        (VoltageUnit::Pu, Connection::PhaseToPhase) => 1.0 / 3f64.sqrt(),
-        (u, _) => vbase_phase / u.factor(),
-    };
-    let ifactor = match spec.current_unit {
-        CurrentUnit::Pu => 1.0,
-        u => ibase / u.factor(),
-    };
-
     let mut vals: SampleValues = [0.0; 7];
     for m in 0..n {
         let t = m as f64 * dt;
-        let in_window = t >= fault_start && t < fault_end;
-        // Grid voltage phasors (pu of the phase base).
-        let (mags, ang) = if in_window {
-            (fault_level(t), jump)
-        } else if t >= fault_end {
-            ([recovery; 3], 0.0)
-        } else {
-            ([spec.prefault_pu; 3], 0.0)
-        };
-        // With a step profile, a step back to normal between faults counts
-        // as "after" for the unit (its active power ramps back).
-        let in_fault = in_window
-            && (spec.steps.is_empty() || mags.iter().any(|m| (m - spec.prefault_pu).abs() > 0.05));
-        let after = t >= fault_start && !in_fault;
-        let va = Complex64::from_polar(mags[0], ang);
-        let vb = Complex64::from_polar(mags[1], ang - 2.0 * PI / 3.0);
-        let vc = Complex64::from_polar(mags[2], ang + 2.0 * PI / 3.0);
+        let g = profile.at(t);
+        let va = Complex64::from_polar(g.mags[0], g.ang);
+        let vb = Complex64::from_polar(g.mags[1], g.ang - 2.0 * PI / 3.0);
+        let vc = Complex64::from_polar(g.mags[2], g.ang + 2.0 * PI / 3.0);
         let [_, v1, v2] = sequence::sequences(va, vb, vc);
-        // Unit response.
-        let dv = v1.norm() - spec.prefault_pu;
         let tripped = spec.trip_at_s.is_some_and(|tt| t >= tt);
         let blocked = spec.block.is_some_and(|(b0, b1)| t >= b0 && t < b1);
-        let extra = if dv.abs() > spec.dead_band_pu {
-            let mag = match spec.dead_band_mode {
-                DeadBandMode::Offset => spec.k_gain * (dv.abs() - spec.dead_band_pu),
-                DeadBandMode::Full => spec.k_gain * dv.abs(),
-            };
-            -mag * dv.signum()
-        } else {
-            0.0
-        };
-        let lim = spec.current_limit_pu;
-        let iq_target = (iq0 + extra).clamp(-lim, lim);
-        unit.iq += (iq_target - unit.iq) * alpha;
-        if in_fault {
-            let room = (lim * lim - unit.iq * unit.iq).max(0.0).sqrt();
-            unit.ip = ip0.min(room);
-            unit.ip_fault = unit.ip;
-        } else if after {
-            let room = (lim * lim - unit.iq * unit.iq).max(0.0).sqrt();
-            unit.ip = (unit.ip + spec.p_ramp_pu_per_s * dt).min(ip0).min(room);
-        }
-        let v2m = v2.norm();
-        let iq2_target = if v2m > spec.dead_band_pu {
-            match spec.dead_band_mode {
-                DeadBandMode::Offset => -spec.k2_gain * (v2m - spec.dead_band_pu),
-                DeadBandMode::Full => -spec.k2_gain * v2m,
-            }
-        } else {
-            0.0
-        };
-        iq2 += (iq2_target - iq2) * alpha;
-        let (ip, iq, iq2n) = if tripped || blocked {
-            (0.0, 0.0, 0.0)
-        } else {
-            (unit.ip, unit.iq, iq2)
-        };
+        let [ip, iq, iq2n] = unit.step(spec, v1.norm(), v2.norm(), &g, tripped || blocked);
         let u1 = if v1.norm() > 1e-9 {
             v1 / v1.norm()
         } else {
-            Complex64::from_polar(1.0, ang)
+            Complex64::from_polar(1.0, g.ang)
         };
         let u2 = if v2.norm() > 1e-9 {
             v2 / v2.norm()
@@ -355,68 +496,14 @@ pub fn generate(
         };
         let i1 = Complex64::new(ip, -iq) * u1;
         let i2 = Complex64::new(0.0, -iq2n) * u2;
-        let status = if tripped { 0.0 } else { 1.0 };
-
         match spec.layout {
             SynthLayout::Waveform => {
                 let phase_i = [i1 + i2, a2 * i1 + a * i2, a * i1 + a2 * i2];
-                let phase_v = [va, vb, vc];
-                let rot = Complex64::from_polar(1.0, w * t);
-                let inst = |x: Complex64| SQRT_2 * (x * rot).re;
-                let harm = |k: usize, rng: &mut ChaCha8Rng| -> f64 {
-                    let mut h = 0.0;
-                    for (order, amp) in &spec.harmonics {
-                        let o = *order as f64;
-                        h += SQRT_2 * amp * (o * (w * t - 2.0 * PI * k as f64 / 3.0)).cos();
-                    }
-                    if spec.noise_pu > 0.0 {
-                        h += spec.noise_pu * normal.sample(rng);
-                    }
-                    h
-                };
-                let mut pv = [0.0; 3];
-                for k in 0..3 {
-                    pv[k] = inst(phase_v[k]) + harm(k, &mut rng);
-                }
-                if acb {
-                    // The file's b and c columns hold phases c and b.
-                    pv.swap(1, 2);
-                }
-                let vout = match spec.connection {
-                    Connection::PhaseToNeutral => pv,
-                    Connection::PhaseToPhase => [pv[0] - pv[1], pv[1] - pv[2], pv[2] - pv[0]],
-                };
-                for k in 0..3 {
-                    vals[k] = vout[k] * vfactor;
-                }
-                for k in 0..3 {
-                    let ival = if tripped {
-                        0.0
-                    } else {
-                        inst(phase_i[k]) + harm(k, &mut rng)
-                    };
-                    vals[3 + k] = ival * ifactor;
-                }
-                if acb {
-                    vals.swap(4, 5);
-                }
+                out.waveform(&mut vals, t, [va, vb, vc], phase_i, tripped);
             }
-            SynthLayout::Rms => {
-                let mut noise = || {
-                    if spec.noise_pu > 0.0 {
-                        spec.noise_pu * normal.sample(&mut rng)
-                    } else {
-                        0.0
-                    }
-                };
-                let vm = v1.norm();
-                let s = v1 * i1.conj();
-                vals[0] = vm + noise();
-                vals[1] = s.re + noise();
-                vals[2] = s.im + noise();
-            }
+            SynthLayout::Rms => out.rms(&mut vals, v1, i1),
         }
-        vals[6] = status;
+        vals[6] = if tripped { 0.0 } else { 1.0 };
         emit(m, t, &vals)?;
     }
     Ok(n)

@@ -389,105 +389,97 @@ pub fn segment_starts(
     out
 }
 
-pub fn evaluate_input(
-    spec: &ReactiveCurrentSpec,
-    inp: &ReactiveInput<'_>,
-    mut r: CheckResult,
-) -> CheckResult {
-    let seq = match spec.sequence {
-        Sequence::Positive => "positive",
-        Sequence::Negative => "negative",
-    };
-    let sub = if spec.sequence == Sequence::Negative {
-        "2"
-    } else {
-        ""
-    };
-    r.required_gain = Some(spec.gain);
-    r.limit = Some(spec.rise_time_s);
-    r.reference_pu = Some(inp.iq_pre);
-    let start = inp.start_s;
-    let (t_ref, ref_note) = match (spec.time_from, inp.inception_s) {
-        (TimeFrom::Start, _) => (start, String::new()),
+/// Each quasi-steady segment of the fault: its bounds, the settled part its
+/// requirement comes from, and that requirement.
+struct Seg {
+    a: f64,
+    b: f64,
+    win: (f64, f64),
+    dv: f64,
+    raw: f64,
+    req: f64,
+}
+
+/// The instant rise and settling times count from, and how the text says so.
+fn time_reference(spec: &ReactiveCurrentSpec, inp: &ReactiveInput<'_>) -> (f64, String) {
+    match (spec.time_from, inp.inception_s) {
+        (TimeFrom::Start, _) => (inp.start_s, String::new()),
         (TimeFrom::Inception, Some(i)) => (i, format!(" (times from the inception at {i:.4} s)")),
         (TimeFrom::Inception, None) => (
-            start,
+            inp.start_s,
             " (no waveform inception known: times from the disturbance start)".to_string(),
         ),
-    };
-    r.time_from_s = Some(t_ref);
-    let data_end = inp.trip_s.map_or(inp.end_s, |tt| tt.min(inp.end_s));
-    let duration = inp.end_s - start;
+    }
+}
+
+/// Where the disturbance and the data allow no judgement at all: a trip
+/// before the rise time ended, or a fault shorter than the rise time.
+fn too_short(spec: &ReactiveCurrentSpec, inp: &ReactiveInput<'_>, t_ref: f64) -> Option<String> {
+    let duration = inp.end_s - inp.start_s;
     if let Some(tt) = inp.trip_s {
         if tt < t_ref + spec.rise_time_s {
-            return r.decide(
-                Verdict::Inconclusive,
-                Reason::InsufficientData,
-                format!("the unit tripped at {tt:.3} s, before the rise time ended; the ride-through checks judge the trip"),
-            );
+            return Some(format!("the unit tripped at {tt:.3} s, before the rise time ended; the ride-through checks judge the trip"));
         }
     }
-    if duration < spec.rise_time_s {
-        return r.decide(
-            Verdict::Inconclusive,
-            Reason::InsufficientData,
-            format!(
-                "the disturbance lasted {:.1} ms, shorter than the required rise time {:.1} ms: the data cannot decide",
-                duration * 1e3,
-                spec.rise_time_s * 1e3
-            ),
-        );
-    }
+    (duration < spec.rise_time_s).then(|| {
+        format!(
+            "the disturbance lasted {:.1} ms, shorter than the required rise time {:.1} ms: the data cannot decide",
+            duration * 1e3,
+            spec.rise_time_s * 1e3
+        )
+    })
+}
+
+/// The time window the judgement works in.
+struct Span {
+    /// Where rise and settling times count from.
+    t_ref: f64,
+    /// The disturbance end or the trip, whichever comes first.
+    data_end: f64,
+    /// One cycle before `data_end`: the last instant of quasi-steady data.
+    qs_end: f64,
+    /// Whether the settling time fits (else the rise time alone is judged).
+    full: bool,
+}
+
+/// The quasi-steady segments `[start_j, end_j)` (the first starts at the
+/// time reference), each with its settled part and requirement; an error
+/// text when the first has no settled part.
+fn segments(
+    spec: &ReactiveCurrentSpec,
+    inp: &ReactiveInput<'_>,
+    span: &Span,
+) -> Result<Vec<Seg>, String> {
     let cycle = inp.cycle_s;
-    let qs_end = data_end - cycle;
-    let full = qs_end > t_ref + spec.settling_time_s;
-    // Segments: [start_j, end_j); the first starts at the time reference.
-    let starts = if full && spec.follow == Follow::Settled {
+    let starts = if span.full && spec.follow == Follow::Settled {
         segment_starts(
             inp.t,
             inp.v,
-            t_ref,
-            data_end - cycle,
+            span.t_ref,
+            span.data_end - cycle,
             spec.segment_step_pu,
             spec.settling_time_s,
             cycle,
         )
     } else {
-        vec![t_ref]
+        vec![span.t_ref]
     };
-    let bounds: Vec<(f64, f64)> = starts
-        .iter()
-        .enumerate()
-        .map(|(j, a)| (*a, starts.get(j + 1).copied().unwrap_or(data_end)))
-        .collect();
-    // Each segment's settled part and requirement.
-    struct Seg {
-        a: f64,
-        b: f64,
-        win: (f64, f64),
-        dv: f64,
-        raw: f64,
-        req: f64,
-    }
     let mut segs: Vec<Seg> = Vec::new();
-    for (j, (a, b)) in bounds.iter().enumerate() {
-        let win = if full {
+    for (j, a) in starts.iter().enumerate() {
+        let b = starts.get(j + 1).copied().unwrap_or(span.data_end);
+        let win = if span.full {
             (a + spec.settling_time_s, b - cycle)
         } else {
             // Rise time only: the voltage between the rise-time limit and one
             // cycle before the end (decision D.15).
-            (t_ref + spec.rise_time_s, qs_end)
+            (span.t_ref + spec.rise_time_s, span.qs_end)
         };
         let Some(vm) = mean_between(inp.t, inp.v, win.0, win.1) else {
             if j == 0 {
-                return r.decide(
-                    Verdict::Inconclusive,
-                    Reason::InsufficientData,
-                    format!(
-                        "no settled part of the fault ({:.1} ms long) to take the voltage from",
-                        duration * 1e3
-                    ),
-                );
+                return Err(format!(
+                    "no settled part of the fault ({:.1} ms long) to take the voltage from",
+                    (inp.end_s - inp.start_s) * 1e3
+                ));
             }
             continue;
         };
@@ -495,167 +487,181 @@ pub fn evaluate_input(
         let raw = required(spec, dv);
         segs.push(Seg {
             a: *a,
-            b: *b,
+            b,
             win,
             dv,
             raw,
             req: limited(spec, inp.iq_pre, raw),
         });
     }
-    let first = &segs[0];
-    let any_required = segs.iter().any(|s| s.raw != 0.0);
-    if spec.follow == Follow::Settled && !any_required {
-        return r.decide(
-            Verdict::NotApplicable,
-            Reason::NotTriggered,
-            format!(
-                "the settled {seq}-sequence voltage deviation {:+.3} pu is inside the dead band ±{} pu: no extra reactive current is required",
-                first.dv, spec.dead_band_pu
-            ),
-        );
-    }
-    let limited_any = segs.iter().any(|s| (s.req - s.raw).abs() > 1e-9);
-    r.limited = Some(limited_any);
-    let limited_note = if (first.req - first.raw).abs() > 1e-9 {
-        format!(
-            " (k·ΔV asks {:+.3} pu; the total is limited to ±{} pu)",
-            first.raw, spec.limit_pu
-        )
-    } else {
-        String::new()
-    };
-    // The requirement at each sample.
-    let seg_of = |x: f64| segs.iter().rposition(|s| s.a <= x).unwrap_or(0);
-    let req_at = |k: usize| -> f64 {
+    Ok(segs)
+}
+
+/// The requirement sample by sample, and whether the current is inside its
+/// tolerance band.
+struct Requirement<'a> {
+    spec: &'a ReactiveCurrentSpec,
+    inp: &'a ReactiveInput<'a>,
+    segs: &'a [Seg],
+}
+
+impl Requirement<'_> {
+    /// The required extra current at sample `k`.
+    fn at(&self, k: usize) -> f64 {
+        let (spec, inp) = (self.spec, self.inp);
         match spec.follow {
-            Follow::Settled => segs[seg_of(inp.t[k])].req,
+            Follow::Settled => {
+                let x = inp.t[k];
+                let j = self.segs.iter().rposition(|s| s.a <= x).unwrap_or(0);
+                self.segs[j].req
+            }
             Follow::Instantaneous => {
                 limited(spec, inp.iq_pre, required(spec, inp.v[k] - inp.v_pre))
             }
         }
-    };
-    // Rise time is judged on the first segment with a requirement.
-    let rise_seg = segs.iter().position(|s| s.req != 0.0).unwrap_or(0);
-    let rs = &segs[rise_seg];
-    let dir = if rs.req >= 0.0 { 1.0 } else { -1.0 };
-    let rise_from = if rise_seg == 0 { t_ref } else { rs.a };
-    let [lo, hi] = spec.tolerance_pu;
-    let i0 = inp.t.partition_point(|x| *x < rise_from);
-    let i_end = inp.t.partition_point(|x| *x <= rs.b.min(data_end));
-    let mut rise_at: Option<f64> = None;
-    for k in i0..i_end {
-        let d = (inp.iq[k] - inp.iq_pre) * dir;
-        let need = 0.9 * req_at(k).abs();
-        if d.is_finite() && d >= need && need > 0.0 {
-            rise_at = Some(if k > i0 {
-                let dp = (inp.iq[k - 1] - inp.iq_pre) * dir;
-                if dp.is_finite() && dp < need {
-                    inp.t[k - 1] + (need - dp) / (d - dp) * (inp.t[k] - inp.t[k - 1])
-                } else {
-                    inp.t[k]
-                }
-            } else {
-                inp.t[k]
-            });
-            break;
-        }
     }
-    let in_band = |k: usize| -> bool {
-        let rq = req_at(k);
+
+    /// Whether the extra current at sample `k` is inside the band
+    /// `[r + s·lo, r + s·hi]`.
+    fn in_band(&self, k: usize) -> bool {
+        let [lo, hi] = self.spec.tolerance_pu;
+        let rq = self.at(k);
         let s = if rq >= 0.0 { 1.0 } else { -1.0 };
-        let d = (inp.iq[k] - inp.iq_pre) * s;
+        let d = (self.inp.iq[k] - self.inp.iq_pre) * s;
         let need = rq.abs();
         d.is_finite() && d >= need + lo && d <= need + hi
-    };
-    // Settling, segment by segment (instantaneous: one segment whose clock
-    // restarts where the averaged requirement moves by more than the band).
-    let settle_in = |from: f64, until: f64, exempt: &dyn Fn(usize) -> bool| -> Option<f64> {
-        let a = inp.t.partition_point(|x| *x < from);
-        let b = inp.t.partition_point(|x| *x <= until);
-        if a >= b {
-            return None;
-        }
-        match (a..b).rev().find(|&k| !in_band(k) && !exempt(k)) {
-            None => Some(from),
-            Some(k) if k + 1 < b => Some(inp.t[k + 1]),
-            Some(_) => None,
-        }
-    };
-    let mut seg_results: Vec<Segment> = Vec::new();
-    if full {
-        match spec.follow {
-            Follow::Settled => {
-                for (j, s) in segs.iter().enumerate() {
-                    let clock = if j == 0 { t_ref } else { s.a };
-                    let at = settle_in(clock, s.win.1, &|_| false);
-                    seg_results.push(Segment {
-                        start_s: s.a,
-                        end_s: s.b,
-                        settled_deviation_pu: s.dv,
-                        required_pu: s.req,
-                        settling_time_s: at.map(|x| x - clock),
-                        measured_pu: mean_between(inp.t, inp.iq, s.win.0, s.win.1)
-                            .map(|m| m - inp.iq_pre),
-                    });
-                }
-            }
-            Follow::Instantaneous => {
-                // One-cycle average of the requirement, and the restarts.
-                let a = inp.t.partition_point(|x| *x < t_ref);
-                let b = inp.t.partition_point(|x| *x <= qs_end);
-                let width = hi - lo;
-                let mut exempt_until = vec![f64::NEG_INFINITY; b.saturating_sub(a)];
-                let mut anchor: Option<f64> = None;
-                let mut until = f64::NEG_INFINITY;
-                let (mut sum, mut n, mut tail) = (0.0, 0usize, a);
-                for k in a..b {
-                    sum += req_at(k);
-                    n += 1;
-                    while inp.t[tail] < inp.t[k] - cycle {
-                        sum -= req_at(tail);
-                        n -= 1;
-                        tail += 1;
+    }
+
+    /// The first instant the extra current reaches 90 % of the requirement
+    /// in the direction `dir`, between `from` and `until` (interpolated
+    /// between the samples around the crossing).
+    fn rise_at(&self, dir: f64, from: f64, until: f64) -> Option<f64> {
+        let inp = self.inp;
+        let i0 = inp.t.partition_point(|x| *x < from);
+        let i_end = inp.t.partition_point(|x| *x <= until);
+        for k in i0..i_end {
+            let d = (inp.iq[k] - inp.iq_pre) * dir;
+            let need = 0.9 * self.at(k).abs();
+            if d.is_finite() && d >= need && need > 0.0 {
+                return Some(if k > i0 {
+                    let dp = (inp.iq[k - 1] - inp.iq_pre) * dir;
+                    if dp.is_finite() && dp < need {
+                        inp.t[k - 1] + (need - dp) / (d - dp) * (inp.t[k] - inp.t[k - 1])
+                    } else {
+                        inp.t[k]
                     }
-                    let avg = sum / n.max(1) as f64;
-                    if inp.t[k] >= t_ref + cycle {
-                        match anchor {
-                            None => anchor = Some(avg),
-                            Some(an) if (avg - an).abs() > width => {
-                                anchor = Some(avg);
-                                if inp.t[k] > t_ref + spec.settling_time_s {
-                                    // The move began up to one averaging
-                                    // window earlier: the clock restarts there.
-                                    until = inp.t[k] + spec.settling_time_s;
-                                    let from = inp.t.partition_point(|x| *x < inp.t[k] - cycle);
-                                    for j in from.max(a)..k {
-                                        exempt_until[j - a] = until;
-                                    }
-                                }
-                            }
-                            _ => {}
-                        }
-                    }
-                    exempt_until[k - a] = until;
-                }
-                let exempt = |k: usize| k >= a && k < b && inp.t[k] < exempt_until[k - a];
-                let at = settle_in(t_ref, qs_end, &exempt);
-                seg_results.push(Segment {
-                    start_s: t_ref,
-                    end_s: data_end,
-                    settled_deviation_pu: first.dv,
-                    required_pu: first.req,
-                    settling_time_s: at.map(|x| x - t_ref),
-                    measured_pu: mean_between(inp.t, inp.iq, first.win.0, first.win.1)
-                        .map(|m| m - inp.iq_pre),
+                } else {
+                    inp.t[k]
                 });
             }
         }
+        None
     }
-    // Measured gain: mean of s·ΔIq/(|ΔV| − db) (offset) or s·ΔIq/|ΔV|
-    // (full) over the settled parts (decision B.8).
+
+    /// The entry into the band for good between `from` and `until`, samples
+    /// where `exempt` holds not counting; `None` when the last sample is
+    /// outside.
+    fn settled_at(&self, from: f64, until: f64, exempt: &dyn Fn(usize) -> bool) -> Option<f64> {
+        let t = self.inp.t;
+        let a = t.partition_point(|x| *x < from);
+        let b = t.partition_point(|x| *x <= until);
+        if a >= b {
+            return None;
+        }
+        match (a..b).rev().find(|&k| !self.in_band(k) && !exempt(k)) {
+            None => Some(from),
+            Some(k) if k + 1 < b => Some(t[k + 1]),
+            Some(_) => None,
+        }
+    }
+
+    /// Settling segment by segment, each clock from its start (the first
+    /// from the time reference) to the end of its settled part.
+    fn settle_segments(&self, t_ref: f64) -> Vec<Segment> {
+        let inp = self.inp;
+        self.segs
+            .iter()
+            .enumerate()
+            .map(|(j, s)| {
+                let clock = if j == 0 { t_ref } else { s.a };
+                let at = self.settled_at(clock, s.win.1, &|_| false);
+                Segment {
+                    start_s: s.a,
+                    end_s: s.b,
+                    settled_deviation_pu: s.dv,
+                    required_pu: s.req,
+                    settling_time_s: at.map(|x| x - clock),
+                    measured_pu: mean_between(inp.t, inp.iq, s.win.0, s.win.1)
+                        .map(|m| m - inp.iq_pre),
+                }
+            })
+            .collect()
+    }
+
+    /// Settling of a requirement that follows the voltage: one segment whose
+    /// clock restarts where the one-cycle average of the requirement moves
+    /// by more than the band's width.
+    fn settle_following(&self, span: &Span) -> Segment {
+        let (inp, spec) = (self.inp, self.spec);
+        let (t_ref, cycle) = (span.t_ref, inp.cycle_s);
+        let [lo, hi] = spec.tolerance_pu;
+        let a = inp.t.partition_point(|x| *x < t_ref);
+        let b = inp.t.partition_point(|x| *x <= span.qs_end);
+        let width = hi - lo;
+        let mut exempt_until = vec![f64::NEG_INFINITY; b.saturating_sub(a)];
+        let mut anchor: Option<f64> = None;
+        let mut until = f64::NEG_INFINITY;
+        let (mut sum, mut n, mut tail) = (0.0, 0usize, a);
+        for k in a..b {
+            sum += self.at(k);
+            n += 1;
+            while inp.t[tail] < inp.t[k] - cycle {
+                sum -= self.at(tail);
+                n -= 1;
+                tail += 1;
+            }
+            let avg = sum / n.max(1) as f64;
+            if inp.t[k] >= t_ref + cycle {
+                match anchor {
+                    None => anchor = Some(avg),
+                    Some(an) if (avg - an).abs() > width => {
+                        anchor = Some(avg);
+                        if inp.t[k] > t_ref + spec.settling_time_s {
+                            // The move began up to one averaging window
+                            // earlier: the clock restarts there.
+                            until = inp.t[k] + spec.settling_time_s;
+                            let from = inp.t.partition_point(|x| *x < inp.t[k] - cycle);
+                            for j in from.max(a)..k {
+                                exempt_until[j - a] = until;
+                            }
+                        }
+                    }
+                    _ => {}
+                }
+            }
+            exempt_until[k - a] = until;
+        }
+        let exempt = |k: usize| k >= a && k < b && inp.t[k] < exempt_until[k - a];
+        let at = self.settled_at(t_ref, span.qs_end, &exempt);
+        let first = &self.segs[0];
+        Segment {
+            start_s: t_ref,
+            end_s: span.data_end,
+            settled_deviation_pu: first.dv,
+            required_pu: first.req,
+            settling_time_s: at.map(|x| x - t_ref),
+            measured_pu: mean_between(inp.t, inp.iq, first.win.0, first.win.1)
+                .map(|m| m - inp.iq_pre),
+        }
+    }
+}
+
+/// Measured gain: mean of s·ΔIq/(|ΔV| − db) (offset) or s·ΔIq/|ΔV| (full)
+/// over the settled parts (decision B.8).
+fn measured_gain(spec: &ReactiveCurrentSpec, inp: &ReactiveInput<'_>, segs: &[Seg]) -> Option<f64> {
     let mut gsum = 0.0;
     let mut gn = 0usize;
-    for s in &segs {
+    for s in segs {
         let a = inp.t.partition_point(|x| *x < s.win.0);
         let b = inp.t.partition_point(|x| *x <= s.win.1);
         for k in a..b {
@@ -671,37 +677,26 @@ pub fn evaluate_input(
             }
         }
     }
-    r.measured_gain = (gn > 0).then(|| gsum / gn as f64);
-    let measured_pu = mean_between(inp.t, inp.iq, first.win.0, first.win.1).map(|m| m - inp.iq_pre);
-    r.required_pu = Some(first.req);
-    r.measured_pu = measured_pu;
-    let rise = rise_at.map(|a| a - rise_from);
-    r.measured = rise;
-    r.at_s = rise_at;
-    let first_settle = seg_results.first().and_then(|s| s.settling_time_s);
-    r.settling_time_s = first_settle;
-    let rise_margin = rise.map(|x| spec.rise_time_s - x);
-    let settle_margins: Vec<Option<f64>> = seg_results
-        .iter()
-        .map(|s| s.settling_time_s.map(|x| spec.settling_time_s - x))
-        .collect();
-    r.margin = match rise_margin {
-        Some(a) if full => settle_margins
-            .iter()
-            .try_fold(a, |m, s| s.map(|s| m.min(s))),
-        Some(a) => Some(a),
-        None => None,
-    };
-    let band = |req: f64| {
-        if req >= 0.0 {
-            format!("[{:+.3}, {:+.3}]", req + lo, req + hi)
-        } else {
-            format!("[{:+.3}, {:+.3}]", req - hi, req - lo)
-        }
-    };
-    let what = match spec.follow {
+    (gn > 0).then(|| gsum / gn as f64)
+}
+
+/// The sub-script of the judged sequence's symbols (`ΔIq2`).
+fn sub(spec: &ReactiveCurrentSpec) -> &'static str {
+    if spec.sequence == Sequence::Negative {
+        "2"
+    } else {
+        ""
+    }
+}
+
+/// What was required, in words: the segments' requirements or the
+/// following requirement, with the limit and time-reference notes.
+fn describe(spec: &ReactiveCurrentSpec, segs: &[Seg], notes: &str) -> String {
+    let sub = sub(spec);
+    let first = &segs[0];
+    match spec.follow {
         Follow::Settled if segs.len() > 1 => format!(
-            "{} quasi-steady segments, required ΔIq{sub} {} pu from their settled deviations {} pu with k = {}{limited_note}{ref_note}",
+            "{} quasi-steady segments, required ΔIq{sub} {} pu from their settled deviations {} pu with k = {}{notes}",
             segs.len(),
             segs.iter()
                 .map(|s| format!("{:+.3}", s.req))
@@ -714,27 +709,193 @@ pub fn evaluate_input(
             spec.gain
         ),
         Follow::Settled => format!(
-            "required ΔIq{sub} {:+.3} pu from the settled deviation {:+.3} pu with k = {}{limited_note}{ref_note}",
+            "required ΔIq{sub} {:+.3} pu from the settled deviation {:+.3} pu with k = {}{notes}",
             first.req, first.dv, spec.gain
         ),
         Follow::Instantaneous => format!(
-            "requirement following the voltage with k = {} (settled value {:+.3} pu){limited_note}{ref_note}",
+            "requirement following the voltage with k = {} (settled value {:+.3} pu){notes}",
             spec.gain, first.req
         ),
+    }
+}
+
+/// How each segment settled, in words.
+fn settle_text(spec: &ReactiveCurrentSpec, seg_results: &[Segment], segs: &[Seg]) -> String {
+    let sub = sub(spec);
+    let [lo, hi] = spec.tolerance_pu;
+    let band = |req: f64| {
+        if req >= 0.0 {
+            format!("[{:+.3}, {:+.3}]", req + lo, req + hi)
+        } else {
+            format!("[{:+.3}, {:+.3}]", req - hi, req - lo)
+        }
     };
+    let texts: Vec<String> = seg_results
+        .iter()
+        .zip(segs)
+        .map(|(s, g)| match s.settling_time_s {
+            Some(st) => format!("settling into {} pu after {:.1} ms", band(g.req), st * 1e3),
+            None => format!(
+                "ΔIq{sub} did not stay inside {} pu before {:.3} s",
+                band(g.req),
+                g.win.1
+            ),
+        })
+        .collect();
+    if seg_results.len() > 1 {
+        texts
+            .iter()
+            .enumerate()
+            .map(|(j, s)| {
+                format!(
+                    "segment {} from {:.3} s: {s}",
+                    j + 1,
+                    seg_results[j].start_s
+                )
+            })
+            .collect::<Vec<_>>()
+            .join("; ")
+    } else {
+        texts.join("")
+    }
+}
+
+pub fn evaluate_input(
+    spec: &ReactiveCurrentSpec,
+    inp: &ReactiveInput<'_>,
+    mut r: CheckResult,
+) -> CheckResult {
+    let seq = match spec.sequence {
+        Sequence::Positive => "positive",
+        Sequence::Negative => "negative",
+    };
+    let sub = sub(spec);
+    r.required_gain = Some(spec.gain);
+    r.limit = Some(spec.rise_time_s);
+    r.reference_pu = Some(inp.iq_pre);
+    let (t_ref, ref_note) = time_reference(spec, inp);
+    r.time_from_s = Some(t_ref);
+    if let Some(why) = too_short(spec, inp, t_ref) {
+        return r.decide(Verdict::Inconclusive, Reason::InsufficientData, why);
+    }
+    let data_end = inp.trip_s.map_or(inp.end_s, |tt| tt.min(inp.end_s));
+    let qs_end = data_end - inp.cycle_s;
+    let span = Span {
+        t_ref,
+        data_end,
+        qs_end,
+        full: qs_end > t_ref + spec.settling_time_s,
+    };
+    let segs = match segments(spec, inp, &span) {
+        Ok(s) => s,
+        Err(why) => return r.decide(Verdict::Inconclusive, Reason::InsufficientData, why),
+    };
+    let first = &segs[0];
+    if spec.follow == Follow::Settled && segs.iter().all(|s| s.raw == 0.0) {
+        return r.decide(
+            Verdict::NotApplicable,
+            Reason::NotTriggered,
+            format!(
+                "the settled {seq}-sequence voltage deviation {:+.3} pu is inside the dead band ±{} pu: no extra reactive current is required",
+                first.dv, spec.dead_band_pu
+            ),
+        );
+    }
+    r.limited = Some(segs.iter().any(|s| (s.req - s.raw).abs() > 1e-9));
+    let limited_note = if (first.req - first.raw).abs() > 1e-9 {
+        format!(
+            " (k·ΔV asks {:+.3} pu; the total is limited to ±{} pu)",
+            first.raw, spec.limit_pu
+        )
+    } else {
+        String::new()
+    };
+    let req = Requirement {
+        spec,
+        inp,
+        segs: &segs,
+    };
+    // Rise time is judged on the first segment with a requirement.
+    let rise_seg = segs.iter().position(|s| s.req != 0.0).unwrap_or(0);
+    let rs = &segs[rise_seg];
+    let dir = if rs.req >= 0.0 { 1.0 } else { -1.0 };
+    let rise_from = if rise_seg == 0 { t_ref } else { rs.a };
+    let rise_at = req.rise_at(dir, rise_from, rs.b.min(data_end));
+    let seg_results: Vec<Segment> = match (span.full, spec.follow) {
+        (false, _) => Vec::new(),
+        (true, Follow::Settled) => req.settle_segments(t_ref),
+        (true, Follow::Instantaneous) => vec![req.settle_following(&span)],
+    };
+    r.measured_gain = measured_gain(spec, inp, &segs);
+    let measured_pu = mean_between(inp.t, inp.iq, first.win.0, first.win.1).map(|m| m - inp.iq_pre);
+    r.required_pu = Some(first.req);
+    r.measured_pu = measured_pu;
+    let rise = rise_at.map(|a| a - rise_from);
+    r.measured = rise;
+    r.at_s = rise_at;
+    r.settling_time_s = seg_results.first().and_then(|s| s.settling_time_s);
+    let rise_margin = rise.map(|x| spec.rise_time_s - x);
+    r.margin = match rise_margin {
+        Some(a) if span.full => seg_results
+            .iter()
+            .map(|s| s.settling_time_s.map(|x| spec.settling_time_s - x))
+            .try_fold(a, |m, s| s.map(|s| m.min(s))),
+        Some(a) => Some(a),
+        None => None,
+    };
+    let what = describe(spec, &segs, &format!("{limited_note}{ref_note}"));
     if segs.len() > 1 {
         r.segments = seg_results.clone();
     }
     let measured_txt = measured_pu
         .map(|m| format!("; measured ΔIq{sub} {m:+.3} pu"))
         .unwrap_or_default();
+    let found = Found {
+        rise,
+        rise_until: rs.b.min(data_end),
+        seg_results,
+        what,
+        measured_txt,
+    };
+    conclude(spec, &span, &segs, found, r)
+}
+
+/// What the judgement found, handed to [`conclude`].
+struct Found {
+    /// Rise time, when the current reached 90 % of the requirement.
+    rise: Option<f64>,
+    /// Until when the rise was looked for.
+    rise_until: f64,
+    seg_results: Vec<Segment>,
+    /// The requirement in words.
+    what: String,
+    /// The measured extra current in words (or nothing).
+    measured_txt: String,
+}
+
+/// The verdict, reason and text from the rise and settling times.
+fn conclude(
+    spec: &ReactiveCurrentSpec,
+    span: &Span,
+    segs: &[Seg],
+    found: Found,
+    r: CheckResult,
+) -> CheckResult {
+    let sub = sub(spec);
+    let Found {
+        rise,
+        rise_until,
+        seg_results,
+        what,
+        measured_txt,
+    } = found;
     let Some(rise_v) = rise else {
         return r.decide(
             Verdict::Fail,
             Reason::NeverReached,
             format!(
                 "{what}: ΔIq{sub} never reached 90 % of it before {:.3} s{measured_txt}",
-                rs.b.min(data_end)
+                rise_until
             ),
         );
     };
@@ -744,7 +905,7 @@ pub fn evaluate_input(
         rise_v * 1e3,
         spec.rise_time_s * 1e3
     );
-    if !full {
+    if !span.full {
         let (v, reason) = if rise_ok {
             (Verdict::Pass, Reason::WithinLimits)
         } else {
@@ -759,34 +920,7 @@ pub fn evaluate_input(
             ),
         );
     }
-    let settle_txt: Vec<String> = seg_results
-        .iter()
-        .zip(&segs)
-        .map(|(s, g)| match s.settling_time_s {
-            Some(st) => format!("settling into {} pu after {:.1} ms", band(g.req), st * 1e3),
-            None => format!(
-                "ΔIq{sub} did not stay inside {} pu before {:.3} s",
-                band(g.req),
-                g.win.1
-            ),
-        })
-        .collect();
-    let settle_txt = if seg_results.len() > 1 {
-        settle_txt
-            .iter()
-            .enumerate()
-            .map(|(j, s)| {
-                format!(
-                    "segment {} from {:.3} s: {s}",
-                    j + 1,
-                    seg_results[j].start_s
-                )
-            })
-            .collect::<Vec<_>>()
-            .join("; ")
-    } else {
-        settle_txt.join("")
-    };
+    let settle_txt = settle_text(spec, &seg_results, segs);
     let never = seg_results.iter().any(|s| s.settling_time_s.is_none());
     let late = seg_results
         .iter()
