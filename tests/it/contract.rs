@@ -2,38 +2,10 @@
 //! and against the field names of the interface document; the sample plan's
 //! verdicts end to end through the binary.
 
-use assert_cmd::Command;
+use crate::common::{holdfast, root, sample_run};
 use holdfast::rules::result::Results;
 use serde_json::Value;
 use std::collections::BTreeSet;
-use std::path::Path;
-
-fn root() -> &'static Path {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-}
-
-/// Runs the README's main command once into a temporary directory.
-fn run_sample_plan() -> &'static (tempfile::TempDir, Value, i32) {
-    static RUN: std::sync::OnceLock<(tempfile::TempDir, Value, i32)> = std::sync::OnceLock::new();
-    RUN.get_or_init(|| {
-        let dir = tempfile::tempdir().unwrap();
-        let out = Command::cargo_bin("holdfast")
-            .unwrap()
-            .current_dir(root())
-            .args(["check", "sample-data/plan.yaml", "--out"])
-            .arg(dir.path())
-            .output()
-            .unwrap();
-        let code = out.status.code().unwrap_or(-1);
-        assert!(
-            code == 0 || code == 1,
-            "{}",
-            String::from_utf8_lossy(&out.stderr)
-        );
-        let text = std::fs::read_to_string(dir.path().join("results.json")).unwrap();
-        (dir, serde_json::from_str(&text).unwrap(), code)
-    })
-}
 
 #[test]
 fn committed_schema_matches_the_result_types() {
@@ -53,7 +25,7 @@ fn committed_schema_matches_the_result_types() {
 
 #[test]
 fn sample_results_validate_against_the_shipped_schema() {
-    let (_dir, results, _) = run_sample_plan();
+    let results = &sample_run().results;
     let results = results.clone();
     let schema: Value = serde_json::from_str(
         &std::fs::read_to_string(root().join("schemas/results-v1.schema.json")).unwrap(),
@@ -130,7 +102,7 @@ fn field_names_follow_the_interface_document() {
     let example: Value = serde_json::from_str(INTERFACE_EXAMPLE).unwrap();
     let mut want = BTreeSet::new();
     key_paths(&example, "", &mut want);
-    let (_dir, results, _) = run_sample_plan();
+    let results = &sample_run().results;
     let results = results.clone();
     let mut have = BTreeSet::new();
     key_paths(&results, "", &mut have);
@@ -155,15 +127,27 @@ fn field_names_follow_the_interface_document() {
     }
 }
 
-#[test]
-fn sample_plan_gives_the_designed_verdicts() {
-    // Each sample recording was built to show one verdict path
-    // (sample-data/plan.yaml explains how each answer follows). Each
-    // expectation is (check, verdict, reason).
-    let (dir, results, code) = run_sample_plan();
-    let code = *code;
-    assert_eq!(code, 1, "the sample plan contains failing tests by design");
-    let expected = [
+/// Check `cid` of test `t` in results.json.
+fn check(t: &Value, cid: &str) -> Value {
+    t["checks"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|c| c["id"] == cid)
+        .unwrap_or_else(|| panic!("{} has no check {cid}", t["id"]))
+        .clone()
+}
+
+/// The answer each sample recording was built to give: (test, verdict,
+/// [(check, verdict, reason)]).
+type Designed = Vec<(
+    &'static str,
+    &'static str,
+    Vec<(&'static str, &'static str, &'static str)>,
+)>;
+
+fn designed() -> Designed {
+    vec![
         (
             "T01",
             "pass",
@@ -279,18 +263,20 @@ fn sample_plan_gives_the_designed_verdicts() {
                 ("realisation", "pass", "as_planned"),
             ],
         ),
-    ];
+    ]
+}
+
+#[test]
+fn sample_plan_gives_the_designed_verdicts() {
+    // Each sample recording was built to show one verdict path
+    // (sample-data/plan.yaml explains how each answer follows). Each
+    // expectation is (check, verdict, reason).
+    let run = sample_run();
+    let (results, code) = (&run.results, run.code);
+    assert_eq!(code, 1, "the sample plan contains failing tests by design");
+    let expected = designed();
     let tests = results["tests"].as_array().unwrap();
     assert_eq!(tests.len(), expected.len());
-    let check = |t: &serde_json::Value, cid: &str| -> serde_json::Value {
-        t["checks"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .find(|c| c["id"] == cid)
-            .unwrap_or_else(|| panic!("{} has no check {cid}", t["id"]))
-            .clone()
-    };
     for (id, verdict, checks) in expected {
         let t = tests
             .iter()
@@ -303,6 +289,13 @@ fn sample_plan_gives_the_designed_verdicts() {
             assert_eq!(c["reason"], reason, "{id}/{cid}: {}", c["detail"]);
         }
     }
+}
+
+#[test]
+fn sample_margins_agree_with_the_verdicts() {
+    let run = sample_run();
+    let (dir, results) = (&run.dir, &run.results);
+    let tests = results["tests"].as_array().unwrap();
     // Every recording has a connection check; margins agree with verdicts
     // (decisions B.6, B.7): ≥ 0 for pass, < 0 for fail, none for
     // inconclusive and not applicable rows (nor a measured value).
@@ -322,7 +315,7 @@ fn sample_plan_gives_the_designed_verdicts() {
     assert_eq!(lvrt["permitted_trip"], true);
     // Permitted trip: the margin is the time from leaving the zone to the
     // trip (s). T05: the envelope rises above 0.3 pu 0.627 s after the start
-    // (see tests/checks.rs) and the unit trips 0.8 s after it: about 0.17 s.
+    // (see tests/it/checks.rs) and the unit trips 0.8 s after it: about 0.17 s.
     assert_eq!(lvrt["unit"], "s");
     let m = lvrt["margin"].as_f64().unwrap();
     assert!((m - 0.173).abs() < 0.01, "{m}");
@@ -384,7 +377,7 @@ fn inspect_json_is_versioned_and_follows_its_committed_schema() {
             vec!["--no-ratings"],
         ),
     ] {
-        let mut cmd = Command::cargo_bin("holdfast").unwrap();
+        let mut cmd = holdfast();
         cmd.current_dir(root()).args(["inspect", file, "--json"]);
         if extra.first() != Some(&"--no-ratings") {
             cmd.args([

@@ -2,7 +2,7 @@
 //! hand-written file from the standard's text, malformed files, and the same
 //! verdicts as CSV.
 
-use assert_cmd::Command;
+use crate::common::{self, holdfast};
 use holdfast::import::comtrade::cfg::{DataType, Revision};
 use holdfast::import::{open, ChannelMap, ImportOptions};
 use holdfast::model::{ChannelKey, Collected};
@@ -13,7 +13,7 @@ use serde_json::Value;
 use std::path::{Path, PathBuf};
 
 fn fixtures() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/comtrade")
+    common::fixture("comtrade")
 }
 
 fn read(path: &Path, map: &ChannelMap) -> (holdfast::model::RecordingInfo, Collected) {
@@ -200,8 +200,7 @@ fn a_per_unit_mapping_overrides_the_unit_the_channel_states() {
         })
         .collect();
     std::fs::write(&p, relabelled.join("\n") + "\n").unwrap();
-    let out = Command::cargo_bin("holdfast")
-        .unwrap()
+    let out = holdfast()
         .arg("inspect")
         .arg(&p)
         .args([
@@ -339,8 +338,7 @@ fn inspect(p: &Path) -> assert_cmd::assert::Assert {
         "id: t\ntitle: t\nsource: s\nchecks:\n  - { id: lvrt, type: envelope, bound: lower, points: [[0, 0], [1, 0.85]] }\n",
     )
     .unwrap();
-    Command::cargo_bin("holdfast")
-        .unwrap()
+    holdfast()
         .args(["check", "--rules"])
         .arg(&rules)
         .arg("--out")
@@ -477,8 +475,7 @@ fn same_verdicts_from_csv_and_every_comtrade_type() {
         let out = dir
             .path()
             .join(format!("out-{}", f.file_name().unwrap().to_string_lossy()));
-        Command::cargo_bin("holdfast")
-            .unwrap()
+        holdfast()
             .args(["check", "--rules"])
             .arg(&rules)
             .args([

@@ -1,40 +1,17 @@
 //! The evidence pack's HTML report and figures.
 
-use assert_cmd::Command;
+use crate::common::{holdfast, root, sample_run};
 use holdfast::analysis::events::DetectionSettings;
 use holdfast::analysis::{Quantity, Series};
 use holdfast::report::plot::{self, BOUNDARY};
 use holdfast::rules::engine::{self, detection_settings};
 use holdfast::rules::spec::{CheckSpec, RuleSet};
-use serde_json::Value;
 use std::path::{Path, PathBuf};
-
-fn root() -> &'static Path {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-}
-
-fn sample_pack() -> &'static (tempfile::TempDir, Value) {
-    static RUN: std::sync::OnceLock<(tempfile::TempDir, Value)> = std::sync::OnceLock::new();
-    RUN.get_or_init(|| {
-        let dir = tempfile::tempdir().unwrap();
-        Command::cargo_bin("holdfast")
-            .unwrap()
-            .current_dir(root())
-            .args(["check", "sample-data/plan.yaml", "--out"])
-            .arg(dir.path())
-            .assert()
-            .code(1);
-        let r = serde_json::from_str(
-            &std::fs::read_to_string(dir.path().join("results.json")).unwrap(),
-        )
-        .unwrap();
-        (dir, r)
-    })
-}
 
 #[test]
 fn report_has_every_test_check_and_figure_and_nothing_external() {
-    let (dir, results) = sample_pack();
+    let run = sample_run();
+    let (dir, results) = (&run.dir, &run.results);
     let html = std::fs::read_to_string(dir.path().join("report.html")).unwrap();
     for bad in ["http://", "https://", "src=", "<script", "@import", "url("] {
         assert!(!html.contains(bad), "report.html contains {bad}");
@@ -106,8 +83,7 @@ fn user_strings_are_escaped_in_html_and_svg() {
     );
     std::fs::write(dir.path().join("plan.yaml"), plan).unwrap();
     let out = dir.path().join("out");
-    Command::cargo_bin("holdfast")
-        .unwrap()
+    holdfast()
         .arg("check")
         .arg(dir.path().join("plan.yaml"))
         .arg("--out")
@@ -239,8 +215,7 @@ fn envelope_boundary_passes_through_the_rule_points() {
 #[test]
 fn rules_plot_draws_every_boundary_and_the_reactive_current_characteristic() {
     let dir = tempfile::tempdir().unwrap();
-    Command::cargo_bin("holdfast")
-        .unwrap()
+    holdfast()
         .args(["rules", "plot"])
         .arg(root().join("rules/eu-rfg-ppm-type-d-example.yaml"))
         .arg("--out")
@@ -280,7 +255,7 @@ fn report_renders_in_a_headless_browser() {
         eprintln!("SKIPPED report_renders_in_a_headless_browser: no chromium on PATH (.ci/run installs Debian's chromium)");
         return;
     };
-    let (dir, _) = sample_pack();
+    let dir = &sample_run().dir;
     let shot = dir.path().join("screenshot.png");
     let url = format!("file://{}", dir.path().join("report.html").display());
     let out = std::process::Command::new(chrome)
@@ -326,7 +301,8 @@ fn report_renders_in_a_headless_browser() {
     );
     // Printed (A4 by the page's CSS): each test on one page, plus the
     // overview and the traceability block.
-    let (dir, results) = sample_pack();
+    let run = sample_run();
+    let (dir, results) = (&run.dir, &run.results);
     let pdf = dir.path().join("report.pdf");
     let printed = std::process::Command::new(browser().unwrap())
         .args([

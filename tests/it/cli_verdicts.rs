@@ -3,53 +3,25 @@
 //! small rule set, and reads results.json. The expected answers follow from
 //! how each recording is built (stated beside each case).
 
-use assert_cmd::Command;
+use crate::common::{self, holdfast, write, RATINGS};
 use serde_json::Value;
 use std::path::{Path, PathBuf};
 
-const RATINGS: [&str; 6] = [
-    "--rated-kv",
-    "0.69",
-    "--rated-mva",
-    "4.2",
-    "--frequency",
-    "50",
-];
-
-fn holdfast() -> Command {
-    Command::cargo_bin("holdfast").unwrap()
-}
-
 /// Writes a synthetic recording (0.69 kV, 4.2 MVA, 50 Hz, 5 kHz) into `dir`.
 fn synth(dir: &Path, name: &str, args: &[&str]) -> PathBuf {
-    let p = dir.join(name);
-    let out = holdfast()
-        .arg("synth")
-        .arg("--out")
-        .arg(&p)
-        .args(["--sample-rate", "5000", "--iq-tau", "0.005"])
-        .args(args)
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    p
-}
-
-fn write(dir: &Path, name: &str, text: &str) -> PathBuf {
-    let p = dir.join(name);
-    std::fs::write(&p, text).unwrap();
-    p
+    common::synth(
+        dir,
+        name,
+        &["--sample-rate", "5000", "--iq-tau", "0.005"],
+        args,
+    )
 }
 
 fn rules(dir: &Path, checks: &str, head: &str) -> PathBuf {
     write(
         dir,
         "rules.yaml",
-        &format!("id: t\ntitle: t\nsource: constructed test\n{head}checks:\n{checks}"),
+        format!("id: t\ntitle: t\nsource: constructed test\n{head}checks:\n{checks}"),
     )
 }
 

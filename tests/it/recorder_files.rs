@@ -5,22 +5,19 @@
 //! 100 V RMS set (1 pu at --rated-kv 0.1732) dipping to 30 % from 0.2 s to
 //! 0.35 s.
 
-use assert_cmd::Command;
+use crate::common::{self, holdfast};
 use serde_json::Value;
 use std::path::{Path, PathBuf};
 
 fn fixture(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/fixtures/quirks")
-        .join(name)
+    common::fixture("quirks").join(name)
 }
 
 const RATED: [&str; 4] = ["--rated-kv", "0.1732", "--rated-mva", "0.0052"];
 
 /// `inspect --json` (no --frequency: the file's line frequency is used).
 fn inspect(path: &Path, extra: &[&str]) -> Value {
-    let out = Command::cargo_bin("holdfast")
-        .unwrap()
+    let out = holdfast()
         .arg("inspect")
         .arg(path)
         .args(RATED)
@@ -201,8 +198,7 @@ fn truncated_data_is_named_before_anything_else() {
         "{n}"
     );
     // check refuses, naming the truncation.
-    let out = Command::cargo_bin("holdfast")
-        .unwrap()
+    let out = holdfast()
         .args(["check", "--rules"])
         .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("rules/eu-rfg-ppm-type-d-example.yaml"))
         .args(RATED)
@@ -215,8 +211,7 @@ fn truncated_data_is_named_before_anything_else() {
     let e = String::from_utf8_lossy(&out.stderr);
     assert!(e.contains("truncated"), "{e}");
     // The data file named instead of its configuration.
-    let out = Command::cargo_bin("holdfast")
-        .unwrap()
+    let out = holdfast()
         .arg("inspect")
         .arg(fixture("rev2001.dat"))
         .output()
@@ -228,8 +223,7 @@ fn truncated_data_is_named_before_anything_else() {
 #[test]
 fn csv_without_a_time_column() {
     let f = fixture("no-time.csv");
-    let out = Command::cargo_bin("holdfast")
-        .unwrap()
+    let out = holdfast()
         .arg("inspect")
         .arg(&f)
         .args(RATED)
@@ -317,8 +311,7 @@ fn real_recorders_files() {
     assert!(notes(&v).contains("A-C-B"), "{}", notes(&v));
     // Truncated data: named by check.
     for part in ["toy-norev-binary-short", "zh-2013-cff-ascii-288ch"] {
-        let out = Command::cargo_bin("holdfast")
-            .unwrap()
+        let out = holdfast()
             .args(["check", "--rules"])
             .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("rules/eu-rfg-ppm-type-d-example.yaml"))
             .args([

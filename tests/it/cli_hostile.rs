@@ -1,44 +1,19 @@
 //! Hostile input and a safe evidence pack, through the binary: no data
 //! loss, no crash, no hang. Every case builds its own small input.
 
-use assert_cmd::Command;
+use crate::common::{self, holdfast, write, RATINGS};
 use serde_json::Value;
 use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
 
-const RATINGS: [&str; 6] = [
-    "--rated-kv",
-    "0.69",
-    "--rated-mva",
-    "4.2",
-    "--frequency",
-    "50",
-];
-
-fn holdfast() -> Command {
-    let mut c = Command::cargo_bin("holdfast").unwrap();
-    // A hang is a failure, not a stuck test run.
-    c.timeout(Duration::from_secs(60));
-    c
-}
-
-fn write(dir: &Path, name: &str, content: &[u8]) -> PathBuf {
-    let p = dir.join(name);
-    std::fs::write(&p, content).unwrap();
-    p
-}
-
+/// A small synthetic recording (2 kHz, 1.5 s).
 fn synth(dir: &Path, name: &str, args: &[&str]) -> PathBuf {
-    let p = dir.join(name);
-    holdfast()
-        .arg("synth")
-        .arg("--out")
-        .arg(&p)
-        .args(["--sample-rate", "2000", "--duration", "1.5"])
-        .args(args)
-        .assert()
-        .success();
-    p
+    common::synth(
+        dir,
+        name,
+        &["--sample-rate", "2000", "--duration", "1.5"],
+        args,
+    )
 }
 
 const RULES: &str = "id: t\ntitle: t\nsource: constructed test\nchecks:\n  - { id: lvrt, type: envelope, bound: lower, points: [[0, 0], [0.15, 0], [1.5, 0.85]] }\n";

@@ -1,25 +1,15 @@
 //! Rule-set and plan errors through the binary: exit status 2 and a message
 //! with the file, line and column.
 
-use assert_cmd::Command;
+use crate::common::{holdfast, write};
 use predicates::prelude::*;
 use std::path::PathBuf;
 
-fn write(dir: &tempfile::TempDir, name: &str, content: &str) -> PathBuf {
-    let p = dir.path().join(name);
-    std::fs::write(&p, content).unwrap();
-    p
-}
-
 fn lint(p: &PathBuf) -> assert_cmd::assert::Assert {
-    Command::cargo_bin("holdfast")
-        .unwrap()
-        .args(["rules", "lint"])
-        .arg(p)
-        .assert()
+    holdfast().args(["rules", "lint"]).arg(p).assert()
 }
 
-const GOOD: &str = "id: r\ntitle: t\nsource: s\nchecks:\n  - id: lvrt\n    type: envelope\n    bound: lower\n    points: [[0, 0], [0.15, 0], [1.5, 0.85]]\n  - id: iq\n    type: reactive_current\n    gain: 2\n    rise_time_s: 0.03\n    settling_time_s: 0.06\n    tolerance_pu: [-0.1, 0.2]\n";
+pub(crate) const GOOD: &str = "id: r\ntitle: t\nsource: s\nchecks:\n  - id: lvrt\n    type: envelope\n    bound: lower\n    points: [[0, 0], [0.15, 0], [1.5, 0.85]]\n  - id: iq\n    type: reactive_current\n    gain: 2\n    rise_time_s: 0.03\n    settling_time_s: 0.06\n    tolerance_pu: [-0.1, 0.2]\n";
 
 #[test]
 fn good_rule_set_lints_clean() {
@@ -34,20 +24,20 @@ fn unknown_key_wrong_type_and_syntax_name_line_and_column() {
     let p = write(
         &dir,
         "typo.yaml",
-        &GOOD.replace("    gain: 2", "    gian: 2"),
+        GOOD.replace("    gain: 2", "    gian: 2"),
     );
     lint(&p).code(2).stderr(
         predicate::str::contains("typo.yaml:11:5")
             .and(predicate::str::contains("unknown field `gian`")),
     );
-    let p = write(&dir, "type.yaml", &GOOD.replace("gain: 2", "gain: high"));
+    let p = write(&dir, "type.yaml", GOOD.replace("gain: 2", "gain: high"));
     lint(&p).code(2).stderr(
         predicate::str::contains("type.yaml:11:").and(predicate::str::contains("invalid type")),
     );
     let p = write(
         &dir,
         "syntax.yaml",
-        &GOOD.replace("points: [[0, 0]", "points: [[0, 0"),
+        GOOD.replace("points: [[0, 0]", "points: [[0, 0"),
     );
     lint(&p)
         .code(2)
@@ -55,7 +45,7 @@ fn unknown_key_wrong_type_and_syntax_name_line_and_column() {
     let p = write(
         &dir,
         "kind.yaml",
-        &GOOD.replace("type: envelope", "type: envelop"),
+        GOOD.replace("type: envelope", "type: envelop"),
     );
     lint(&p)
         .code(2)
@@ -88,12 +78,12 @@ fn empty_and_oversized_files_exit_2() {
     let dir = tempfile::tempdir().unwrap();
     let p = write(&dir, "empty.yaml", "");
     lint(&p).code(2).stderr(predicate::str::contains("empty"));
-    let p = write(&dir, "huge.yaml", &"[".repeat(300_000));
+    let p = write(&dir, "huge.yaml", "[".repeat(300_000));
     let start = std::time::Instant::now();
     lint(&p).code(2).stderr(predicate::str::contains("limit"));
     assert!(start.elapsed().as_secs_f64() < 2.0);
     // Deep nesting within the size limit stops at the parser's recursion limit.
-    let p = write(&dir, "deep.yaml", &"[".repeat(100_000));
+    let p = write(&dir, "deep.yaml", "[".repeat(100_000));
     lint(&p)
         .code(2)
         .stderr(predicate::str::contains("deep.yaml"));
@@ -104,8 +94,7 @@ fn plan_errors_name_the_place() {
     let dir = tempfile::tempdir().unwrap();
     write(&dir, "rules.yaml", GOOD);
     let check = |p: &PathBuf| {
-        Command::cargo_bin("holdfast")
-            .unwrap()
+        holdfast()
             .arg("check")
             .arg(p)
             .arg("--out")
@@ -120,7 +109,7 @@ fn plan_errors_name_the_place() {
     let p = write(
         &dir,
         "unknown.yaml",
-        &plan.replace("rules: rules.yaml", "rules: rules.yaml\nrulez: x"),
+        plan.replace("rules: rules.yaml", "rules: rules.yaml\nrulez: x"),
     );
     check(&p).code(2).stderr(
         predicate::str::contains("unknown.yaml:3:1").and(predicate::str::contains("rulez")),
@@ -128,8 +117,7 @@ fn plan_errors_name_the_place() {
     let p = write(
         &dir,
         "norules.yaml",
-        &plan
-            .replace("rules: rules.yaml", "rules: missing.yaml")
+        plan.replace("rules: rules.yaml", "rules: missing.yaml")
             .replace("id: A\n    file: b", "id: B\n    file: b"),
     );
     check(&p)
@@ -139,7 +127,7 @@ fn plan_errors_name_the_place() {
     let p = write(
         &dir,
         "norec.yaml",
-        &plan.replace("id: A\n    file: b", "id: B\n    file: b"),
+        plan.replace("id: A\n    file: b", "id: B\n    file: b"),
     );
     check(&p)
         .code(2)
@@ -147,7 +135,7 @@ fn plan_errors_name_the_place() {
     let p = write(
         &dir,
         "unit.yaml",
-        &plan.replace("frequency_hz: 50", "frequency_hz: -50"),
+        plan.replace("frequency_hz: 50", "frequency_hz: -50"),
     );
     check(&p)
         .code(2)

@@ -2,7 +2,7 @@
 //! verdicts just inside and just outside every corner, parameter ranges, and
 //! schema validation of every shipped YAML.
 
-use assert_cmd::Command;
+use crate::common::{holdfast, root};
 use holdfast::analysis::{Quantity, Series};
 use holdfast::rules::engine::{self, detection_settings};
 use holdfast::rules::params::Choices;
@@ -11,10 +11,6 @@ use holdfast::rules::spec::{Bound, CheckSpec, RuleSet, Side};
 use holdfast::rules::zone::curve_at;
 use predicates::prelude::*;
 use std::path::{Path, PathBuf};
-
-fn root() -> &'static Path {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-}
 
 fn load(name: &str, set: &[(&str, f64)]) -> RuleSet {
     let choices: Choices = set
@@ -43,7 +39,7 @@ fn table(r: &RuleSet, id: &str) -> Vec<(f64, f64)> {
 }
 
 #[test]
-fn shipped_rule_sets_match_the_published_points() {
+fn eu_hvdc_table_7_points_and_ranges() {
     // Regulation (EU) 2016/1447 (HVDC), Annex V, Table 7 — ranges quoted from
     // the published text: Uret 0–0.30, tclear 0.14–0.25, Urec1 0.25–0.85,
     // trec1 1.5–2.5, Urec2 0.85–0.90, trec2 trec1–10.0.
@@ -78,9 +74,13 @@ fn shipped_rule_sets_match_the_published_points() {
     assert_eq!(range("t_rec1"), (1.5, 2.5));
     assert_eq!(range("u_rec2"), (0.85, 0.90));
     assert_eq!(range("t_rec2"), (1.5, 10.0)); // trec1 (default 1.5) to 10.0
-                                              // Regulation (EU) 2016/631 (RfG) Table 7.2, type D power park modules
-                                              // (from memory): Uret = Uclear = Urec1 = 0, Urec2 = 0.85, tclear 0.14–0.15
-                                              // (to 0.25), trec3 1.5–3.0.
+}
+
+#[test]
+fn eu_rfg_envelopes() {
+    // Regulation (EU) 2016/631 (RfG) Table 7.2, type D power park modules
+    // (from memory): Uret = Uclear = Urec1 = 0, Urec2 = 0.85, tclear 0.14–0.15
+    // (to 0.25), trec3 1.5–3.0.
     assert_eq!(
         envelope(&load("eu-rfg-2016-631-ppm-type-d.yaml", &[]), "lvrt"),
         vec![[0.0, 0.0], [0.15, 0.0], [1.5, 0.85]]
@@ -107,6 +107,10 @@ fn shipped_rule_sets_match_the_published_points() {
         ),
         vec![[0.0, 0.1], [0.15, 0.1], [0.15, 0.15], [3.0, 0.85]]
     );
+}
+
+#[test]
+fn nerc_prc_024_tables() {
     // NERC PRC-024-2/-3 Attachment 2 (from memory, widely reproduced).
     let n = load("nerc-prc-024-3.yaml", &[]);
     assert_eq!(
@@ -117,6 +121,10 @@ fn shipped_rule_sets_match_the_published_points() {
         table(&n, "hv"),
         vec![(1.2, 0.0), (1.175, 0.2), (1.15, 0.5), (1.1, 1.0)]
     );
+}
+
+#[test]
+fn ieee_1547_envelopes() {
     // IEEE 1547-2018 Tables 14/15/16 (from memory, corroborated by a quote of
     // the cell text): Cat I T = 0.7 + 4(V − 0.7), so 1.42 s at 0.88 pu; Cat II
     // T = 3 + 8.7(V − 0.65), so 5.0 s at 0.88 pu.
@@ -180,6 +188,10 @@ fn shipped_rule_sets_match_the_published_points() {
         envelope(&load("ieee-1547-2018-cat-iii-hv.yaml", &[]), "hvrt"),
         vec![[0.0, 1.2], [12.0, 1.2], [12.0, 1.1]]
     );
+}
+
+#[test]
+fn ieee_2800_table_and_reactive_current() {
     // IEEE 2800-2022 (from memory, low confidence — the file says so).
     assert_eq!(
         table(&load("ieee-2800-2022-vrt.yaml", &[]), "lv"),
@@ -199,6 +211,10 @@ fn shipped_rule_sets_match_the_published_points() {
         }
         _ => panic!(),
     }
+}
+
+#[test]
+fn unchecked_numbers_are_marked_from_memory() {
     // Every "from memory" number is marked as such in the file, and the
     // sources say how far they were checked.
     for (name, text) in holdfast::rules::library::SHIPPED {
@@ -376,8 +392,7 @@ fn verdicts_flip_across_every_corner() {
 #[test]
 fn parameter_range_errors_name_parameter_range_and_source() {
     let hvdc = root().join("rules/eu-hvdc-2016-1447-table-7.yaml");
-    Command::cargo_bin("holdfast")
-        .unwrap()
+    holdfast()
         .args(["rules", "lint"])
         .arg(&hvdc)
         .args(["--set", "u_ret=0.5"])
@@ -389,8 +404,7 @@ fn parameter_range_errors_name_parameter_range_and_source() {
                 .and(predicate::str::contains("2016/1447")),
         );
     // A range end that refers to another parameter: trec2 ≥ trec1.
-    Command::cargo_bin("holdfast")
-        .unwrap()
+    holdfast()
         .args(["rules", "lint"])
         .arg(&hvdc)
         .args(["--set", "t_rec1=2.5", "--set", "t_rec2=2.0"])
@@ -400,8 +414,7 @@ fn parameter_range_errors_name_parameter_range_and_source() {
             predicate::str::contains("'t_rec2' = 2").and(predicate::str::contains("2.5 to 10 s")),
         );
     // Unknown names.
-    Command::cargo_bin("holdfast")
-        .unwrap()
+    holdfast()
         .args(["rules", "lint"])
         .arg(&hvdc)
         .args(["--set", "u_nope=1"])
@@ -416,8 +429,7 @@ fn parameter_range_errors_name_parameter_range_and_source() {
         root().join("sample-data/recordings/t01-deep-symmetrical.csv").display()
     );
     std::fs::write(dir.path().join("p.yaml"), plan).unwrap();
-    Command::cargo_bin("holdfast")
-        .unwrap()
+    holdfast()
         .arg("check")
         .arg(dir.path().join("p.yaml"))
         .arg("--out")
@@ -430,8 +442,7 @@ fn parameter_range_errors_name_parameter_range_and_source() {
                 .and(predicate::str::contains("2016/631")),
         );
     // Lint shows the resolved values.
-    Command::cargo_bin("holdfast")
-        .unwrap()
+    holdfast()
         .args(["rules", "lint"])
         .arg(&hvdc)
         .args(["--set", "t_clear=0.2"])
@@ -459,12 +470,7 @@ fn shipped_yaml_validates_against_the_shipped_schemas() {
         ("schemas/rules.schema.json", ["rules", "schema"]),
         ("schemas/plan.schema.json", ["plan", "schema"]),
     ] {
-        let printed = Command::cargo_bin("holdfast")
-            .unwrap()
-            .args(args)
-            .output()
-            .unwrap()
-            .stdout;
+        let printed = holdfast().args(args).output().unwrap().stdout;
         let committed = std::fs::read(root().join(file)).unwrap();
         assert_eq!(
             String::from_utf8(printed).unwrap(),

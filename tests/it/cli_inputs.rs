@@ -1,27 +1,11 @@
 //! Bad input through the binary: exit status 2 and a message naming the place.
 
-use assert_cmd::Command;
+use crate::common::{holdfast, write, RATINGS};
 use predicates::prelude::*;
 use std::path::PathBuf;
 
-const RATINGS: [&str; 6] = [
-    "--rated-kv",
-    "0.69",
-    "--rated-mva",
-    "4.2",
-    "--frequency",
-    "50",
-];
-
-fn write(dir: &tempfile::TempDir, name: &str, content: &[u8]) -> PathBuf {
-    let p = dir.path().join(name);
-    std::fs::write(&p, content).unwrap();
-    p
-}
-
 fn inspect(path: &PathBuf, extra: &[&str]) -> assert_cmd::assert::Assert {
-    Command::cargo_bin("holdfast")
-        .unwrap()
+    holdfast()
         .arg("inspect")
         .arg(path)
         .args(RATINGS)
@@ -30,7 +14,7 @@ fn inspect(path: &PathBuf, extra: &[&str]) -> assert_cmd::assert::Assert {
 }
 
 /// (file name, content, expected fragments of the message)
-fn cases() -> Vec<(&'static str, &'static [u8], Vec<&'static str>)> {
+pub(crate) fn cases() -> Vec<(&'static str, &'static [u8], Vec<&'static str>)> {
     vec![
         (
             "text.csv",
@@ -119,8 +103,7 @@ fn every_bad_input_exits_2_and_names_the_place() {
             "r.yaml",
             b"id: t\ntitle: t\nsource: s\nchecks:\n  - { id: lvrt, type: envelope, bound: lower, points: [[0, 0], [1, 0.85]] }\n",
         );
-        Command::cargo_bin("holdfast")
-            .unwrap()
+        holdfast()
             .args(["check", "--rules"])
             .arg(&rules)
             .args(RATINGS)
@@ -168,8 +151,7 @@ fn bad_arguments_exit_2() {
     inspect(&p, &["--voltage-unit", "MV"])
         .code(2)
         .stderr(predicate::str::contains("--voltage-unit"));
-    Command::cargo_bin("holdfast")
-        .unwrap()
+    holdfast()
         .args(["inspect", "--no-such-flag"])
         .assert()
         .code(2);
@@ -199,8 +181,7 @@ fn decimal_comma_semicolon_bom_crlf_and_iso_time_are_read() {
         );
     }
     let p = write(&dir, "eu.csv", &content);
-    let out = Command::cargo_bin("holdfast")
-        .unwrap()
+    let out = holdfast()
         .args([
             "inspect",
             "--voltage-unit",
@@ -230,8 +211,7 @@ fn iso_timestamps_with_a_decimal_comma_are_read() {
         "isocomma.csv",
         b"t;va;vb;vc\n2026-03-14T10:00:00,000;1;2;3\n2026-03-14T10:00:00,001;1;2;3\n2026-03-14T10:00:00,002;1;2;3\n",
     );
-    let out = Command::cargo_bin("holdfast")
-        .unwrap()
+    let out = holdfast()
         .args(["inspect", "--voltage-unit", "pu", "--json"])
         .arg(&p)
         .assert()
