@@ -112,9 +112,9 @@ fn load_text_with(
     let rules: RuleSet = match yaml::parse(path, &text) {
         Ok(r) => r,
         Err(first) => {
-            // The parser reports a problem inside a check at the check's
-            // first line; look at each check on its own to name the key and
-            // to report every broken check at once.
+            // The parser stops at the first problem; look at each check on
+            // its own to report every broken check at once, each placed at
+            // its key.
             let per_check = check_errors(path, &text);
             return Err(InputErrors(if per_check.is_empty() {
                 vec![first]
@@ -154,9 +154,9 @@ fn check_errors(path: &Path, text: &str) -> Vec<InputError> {
     #[derive(serde::Deserialize)]
     struct Loose {
         #[serde(default)]
-        checks: Vec<serde_yaml::Value>,
+        checks: Vec<serde_json::Value>,
     }
-    let Ok(loose) = serde_yaml::from_str::<Loose>(text) else {
+    let Some(loose) = yaml::parse_tree::<Loose>(text) else {
         return Vec::new();
     };
     let quoted = |msg: &str, after: &str| -> Option<String> {
@@ -172,7 +172,7 @@ fn check_errors(path: &Path, text: &str) -> Vec<InputError> {
             .and_then(|x| x.as_str())
             .unwrap_or("?")
             .to_string();
-        if let Err(e) = serde_yaml::from_value::<spec::CheckSpec>(v.clone()) {
+        if let Err(e) = serde_json::from_value::<spec::CheckSpec>(v.clone()) {
             let msg = e.to_string();
             let key = quoted(&msg, "unknown field `")
                 .or_else(|| msg.contains("unknown variant").then(|| "type".to_string()))
@@ -194,16 +194,15 @@ fn check_errors(path: &Path, text: &str) -> Vec<InputError> {
 }
 
 /// The key whose value causes `msg`: without it the error changes.
-fn culprit(v: &serde_yaml::Value, msg: &str) -> Option<String> {
-    let map = v.as_mapping()?;
-    for (k, _) in map {
-        let key = k.as_str()?;
+fn culprit(v: &serde_json::Value, msg: &str) -> Option<String> {
+    let map = v.as_object()?;
+    for key in map.keys() {
         if key == "type" || key == "id" {
             continue;
         }
         let mut m = map.clone();
-        m.remove(k);
-        match serde_yaml::from_value::<spec::CheckSpec>(serde_yaml::Value::Mapping(m)) {
+        m.remove(key);
+        match serde_json::from_value::<spec::CheckSpec>(serde_json::Value::Object(m)) {
             Ok(_) => return Some(key.to_string()),
             Err(e) if e.to_string() != msg => return Some(key.to_string()),
             Err(_) => {}

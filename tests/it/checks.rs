@@ -1035,7 +1035,7 @@ fn realisation_uses_the_extreme_and_inception_to_clearance() {
     }));
     s.status = status_open_at(99.0);
     let r = rules(LVRT);
-    let e: Expect = serde_yaml::from_str("{ residual_pu: 0.3, duration_s: 0.25 }").unwrap();
+    let e: Expect = serde_saphyr::from_str("{ residual_pu: 0.3, duration_s: 0.25 }").unwrap();
     let out = engine::evaluate(&s.series(), &r, &detection_settings(&r, 50.0), Some(&e));
     let d = &out.disturbances[0];
     assert!(close(d.inception_s, 0.995, 1e-9), "{:?}", d.inception_s);
@@ -1051,7 +1051,7 @@ fn realisation_uses_the_extreme_and_inception_to_clearance() {
     assert!(close(Some(e.duration_tolerance(0.25)), 0.025, 1e-12));
     assert!(close(Some(e.duration_tolerance(0.1)), 0.02, 1e-12));
     // Planned 0.3 s: 0.25 differs by 0.05 > 0.03 (10 %): not as planned.
-    let e: Expect = serde_yaml::from_str("{ duration_s: 0.3 }").unwrap();
+    let e: Expect = serde_saphyr::from_str("{ duration_s: 0.3 }").unwrap();
     let out = engine::evaluate(&s.series(), &r, &detection_settings(&r, 50.0), Some(&e));
     assert_eq!(out.checks[0].reason, Some(Reason::NotAsPlanned));
 }

@@ -487,7 +487,7 @@ fn shipped_yaml_validates_against_the_shipped_schemas() {
     let rules_v = jsonschema::validator_for(&schema("schemas/rules.schema.json")).unwrap();
     let plan_v = jsonschema::validator_for(&schema("schemas/plan.schema.json")).unwrap();
     let as_json = |p: &Path| -> serde_json::Value {
-        serde_yaml::from_str(&std::fs::read_to_string(p).unwrap()).unwrap()
+        serde_saphyr::from_str(&std::fs::read_to_string(p).unwrap()).unwrap()
     };
     let rules = yaml_files(&root().join("rules"));
     assert!(rules.len() >= 12);
