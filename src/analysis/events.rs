@@ -463,7 +463,7 @@ fn clearance(s: &Series, dev: &[f64], inc: f64, end: f64, cycle: f64, thr: f64) 
 
 /// Finds every disturbance of the applicable voltage.
 ///
-/// Pre-fault references (decision C.9 in docs/rules.md) come from the window
+/// Pre-fault references (docs/rules.md, "Rule set") come from the window
 /// of `prefault_window_s` ending `prefault_guard_s` before the start, when
 /// it overlaps no earlier disturbance and no earlier disturbance's recovery
 /// allowance; otherwise the disturbance belongs to the chain of the previous

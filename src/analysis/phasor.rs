@@ -125,8 +125,10 @@ impl SlidingDft {
         match &self.table {
             Some(t) => t[(m % self.k as u64) as usize],
             None => {
-                // Reduce the angle exactly in integers where possible: the
-                // phase of sample m only matters modulo 2π.
+                // Non-integer samples per cycle: the angle of sample m is
+                // computed from m directly (no accumulated rotation). Its
+                // rounding grows with m: after 10^9 samples it is about
+                // 1e-7 rad, far below what any check looks at.
                 let a = -self.theta * m as f64;
                 let (s, c) = a.sin_cos();
                 Complex64::new(c, s)

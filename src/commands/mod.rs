@@ -8,7 +8,7 @@ pub mod synth;
 
 use crate::cli::{Cli, Command};
 
-/// How a command that ran ends (interfaces.md, "Exit status"); input that
+/// How a command that ran ends (README, "Exit status"); input that
 /// cannot be used is an error instead, exit status 2.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum ExitStatus {

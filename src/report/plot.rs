@@ -6,7 +6,8 @@
 //! each pixel column ([`minmax_decimate`]), so a one-sample spike stays
 //! visible while files stay small. Colours are chosen to stay distinct for
 //! the common colour-vision deficiencies and every verdict is also written
-//! out in text; boundaries and requirements use dashed lines.
+//! out in text; zone boundaries are solid, requirements in a figure of
+//! measured values dashed (the measured traces are solid).
 
 use plotters::coord::Shift;
 use plotters::prelude::*;

@@ -1,5 +1,5 @@
-//! The `connection` check that every recording gets (decision A.1 in
-//! docs/rules.md): did the unit stay connected wherever the rule set asks it
+//! The `connection` check that every recording gets (docs/rules.md,
+//! "Checks holdfast adds itself"): did the unit stay connected wherever the rule set asks it
 //! to? A trip while no disturbance is under way is a failure to stay
 //! connected, which zone checks alone cannot see (a phase jump without a
 //! magnitude change is a common cause); a trip during a disturbance follows

@@ -38,7 +38,7 @@ pub fn detection_settings(rules: &RuleSet, frequency_hz: f64) -> DetectionSettin
     s.unbalance_ratio = d.unbalance_ratio;
     s.trip_current_pu = d.trip_current_pu;
     // A later disturbance's pre-fault window keeps clear of an earlier
-    // one's recovery (decision C.9): the longest recovery time asked for.
+    // one's recovery (docs/rules.md, pre-fault references): the longest recovery time asked for.
     s.recovery_allowance_s = rules
         .checks
         .iter()
@@ -307,7 +307,7 @@ fn review(rows: &mut [CheckResult], checks_of: &[&dyn Check]) {
     }
 }
 
-/// The connection check, from the zone checks' results (decision A.1).
+/// The connection check, from the zone checks' results (docs/rules.md, "Checks holdfast adds itself").
 fn connection_check(
     series: &Series,
     v: &[f64],

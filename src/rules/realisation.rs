@@ -1,5 +1,5 @@
 //! Test realisation: did the recording apply the test the plan says it did?
-//! (domain reference §5; decision D.16 in docs/rules.md). A mismatch makes
+//! (docs/rules.md, "Checks holdfast adds itself" and "Test plan"). A mismatch makes
 //! the test inconclusive as evidence; it is not a failure of the unit.
 //!
 //! The residual is the extreme of the rule set's applicable voltage; the

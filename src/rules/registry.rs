@@ -10,8 +10,8 @@ use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 
 /// Hands the list of check types to `$then!`: for each, its doc comment,
-/// the variant name, its spec type (a path inside `rules::checks`) and its
-/// `type` name in rule sets and results.
+/// the variant name, its module in `rules/checks/` with the spec type, and
+/// its `type` name in rule sets and results.
 macro_rules! check_types {
     ($then:ident) => {
         $then! {
@@ -30,7 +30,7 @@ pub(crate) use check_types;
 
 /// Makes [`CheckKind`] from the list (the spec types are not looked at).
 macro_rules! define_kinds {
-    ($( $(#[$doc:meta])* $variant:ident($spec:ty) = $name:literal, )*) => {
+    ($( $(#[$doc:meta])* $variant:ident($module:ident :: $spec:ident) = $name:literal, )*) => {
         /// The type of a check result: a rule-set check type, or one of the
         /// checks holdfast adds itself.
         #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize, Deserialize, JsonSchema)]

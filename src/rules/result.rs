@@ -1,5 +1,5 @@
 //! The neutral result of checking recordings: what every reporter renders.
-//! Field names are the `results.json` schema version 1 (interfaces.md);
+//! Field names are the `results.json` schema version 1 (schemas/results-v1.schema.json);
 //! additions are optional fields only.
 
 pub use super::registry::{CheckKind, Unit};

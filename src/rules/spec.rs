@@ -41,7 +41,7 @@ pub struct RuleSet {
     pub checks: Vec<CheckSpec>,
 }
 
-/// When a disturbance starts and ends (domain reference §4).
+/// When a disturbance starts and ends (docs/rules.md, "Rule set").
 #[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct DisturbanceSpec {

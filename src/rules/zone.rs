@@ -1,6 +1,6 @@
 //! Ride-through zone checks: envelopes and duration tables, and the verdict
-//! rules they share (domain reference §5; reasons and margins as in
-//! docs/rules.md, "Ride-through zone checks").
+//! rules they share (docs/rules.md: `envelope`, `duration_table`, "Reasons and
+//! margins").
 //!
 //! A scan follows the zone sample by sample from the disturbance start and
 //! records the **headroom**: for an envelope `V − C(τ)` (lower) or `C(τ) − V`
@@ -574,8 +574,8 @@ fn judge_connected(
     }
 }
 
-/// Turns a zone scan into a verdict (domain reference §5; decisions A.5 and
-/// B.6 in docs/rules.md). `deep` is the scan of the deepest case
+/// Turns a zone scan into a verdict (docs/rules.md,
+/// `envelope`: short faults, reasons and margins). `deep` is the scan of the deepest case
 /// ([`deepest`]) for faults shorter than two cycles at phasor level.
 pub fn zone_verdict(
     r: CheckResult,

@@ -296,7 +296,7 @@ fn first_order_rise_time_is_tau_ln9() {
 
 #[test]
 fn over_excited_injection_gives_positive_q_and_iq() {
-    // Generator convention (domain reference §2): current lagging the voltage
+    // Generator convention (docs/method.md, "Sign conventions"): current lagging the voltage
     // by 90° is reactive power delivered to the grid, i.e. an over-excited
     // machine (e.g. Grainger & Stevenson, §3: an over-excited generator
     // supplies lagging current / positive Q). Build it from waveforms directly.
@@ -354,7 +354,7 @@ fn inductive_negative_sequence_current_gives_negative_iq2() {
     );
 }
 
-// ------------------------------------------- decisions A.2, A.3, A.4, D.14
+// -------- phase rotation, unusable samples, phase-to-phase, inception
 
 /// Phase phasors `a, b, c` of magnitude `m` rotating A-B-C (or A-C-B).
 fn set(m: [f64; 3], acb: bool, f: f64, fs: f64, n: usize) -> Vec<Vec<f64>> {

@@ -137,7 +137,7 @@ fn close(a: Option<f64>, b: f64, tol: f64) -> bool {
 fn envelope_inside_no_trip_passes_with_smallest_margin() {
     // 0.3 pu for 0.3 s (1.0..1.3 s): C(τ) = 0 up to 0.15 s, then
     // 0.85·(τ − 0.15)/1.35. The margin is the smallest headroom over the
-    // disturbance itself (start to end, decision B.6), not over the
+    // disturbance itself (start to end, docs/rules.md "Reasons and margins"), not over the
     // recovered tail: at the last dip sample, τ = 0.299 s,
     // 0.3 − 0.85·0.149/1.35 = 0.206185 pu.
     let mut s = Sig::new(dip(0.3, 0.3));
@@ -184,7 +184,7 @@ fn envelope_trip_after_leaving_zone_is_permitted() {
 fn envelope_left_zone_without_trip_passes_with_note() {
     // 0.3 pu for 1 s leaves the zone at 1.627 s (see above) and the unit
     // stays connected: pass, reason rode_through_beyond_zone, and no margin
-    // (a margin would have no meaning, decision B.6).
+    // (a margin would have no meaning, docs/rules.md "Reasons and margins").
     let mut s = Sig::new(dip(0.3, 1.0));
     s.status = status_open_at(99.0);
     let c = one(&s, &rules(LVRT));
@@ -427,7 +427,7 @@ fn reactive_current_short_faults() {
 #[test]
 fn reactive_current_limit_applies_to_the_total() {
     // Pre-fault Iq0 = 0.3; ΔV = −0.5 asks 0.8, but Iq0 + 0.8 = 1.1 > 1.0:
-    // the required extra current is 1.0 − 0.3 = 0.7 (domain reference §5).
+    // the required extra current is 1.0 − 0.3 = 0.7 (docs/rules.md).
     let mut s = Sig::new(dip(0.5, 0.3));
     let resp = first_order(0.7, 0.005, 0.3);
     s.iq = Box::new(move |t| 0.3 + resp(t));
@@ -446,7 +446,7 @@ fn reactive_current_full_dead_band_and_instantaneous_follow() {
     let c = one(&s, &rules(&full));
     assert!(close(c.required_pu, 0.6, 1e-9));
     assert_eq!(c.verdict, Verdict::Pass);
-    // A two-step fault (decision D.12): 0.7 pu for 150 ms, then 0.3 pu for
+    // A two-step fault (docs/rules.md, `reactive_current` segments): 0.7 pu for 150 ms, then 0.3 pu for
     // 150 ms. Offset dead band: 2·(0.3 − 0.1) = 0.4 pu, then
     // min(2·(0.7 − 0.1), 1.0) = 1.0 pu (limited). The unit follows each
     // level with τ = 5 ms.
@@ -522,7 +522,7 @@ fn reactive_current_full_dead_band_and_instantaneous_follow() {
 #[test]
 fn negative_sequence_requirement_is_inductive() {
     // V2 from 0 to 0.2 pu: ΔV2 = +0.2, required ΔIq2 = −2·(0.2 − 0.1) = −0.2
-    // (inductive, domain reference §2). Pre-fault Iq2 has no reference (NaN).
+    // (inductive, docs/method.md, "Sign conventions"). Pre-fault Iq2 has no reference (NaN).
     let neg = IQ.replace("gain: 2", "sequence: negative, gain: 2");
     let mut s = Sig::new(dip(0.7, 0.3));
     let resp = first_order(-0.2, 0.005, 0.3);
@@ -636,7 +636,7 @@ fn each_disturbance_is_judged_on_its_own() {
     assert_eq!(c[1].permitted_trip, Some(true));
 }
 
-// ------------------------------------------------ connection (decision A.1)
+// ------------------------------------------------ connection
 
 #[test]
 fn a_trip_without_any_disturbance_fails_the_connection_check() {
@@ -872,7 +872,7 @@ fn recovery_after_a_trip_is_excused_only_when_every_zone_check_permits_it() {
     // 0.3 pu for 1 s; trip at 1.8 s. The envelope was left at 1.627 s
     // (permitted); a table "below 0.45 pu for up to 0.9 s" is only left at
     // 1.9 s, so for it the trip is inside the zone: recovery is required
-    // and fails (decision C.11).
+    // and fails (docs/rules.md, `active_power_recovery`).
     let table = "  - { id: lv, type: duration_table, side: below, rows: [{ beyond_pu: 0.45, max_s: 0.9 }] }\n";
     let mut s = Sig::new(dip(0.3, 1.0));
     s.status = status_open_at(1.8);

@@ -1,4 +1,4 @@
-//! Verdict semantics through the binary (decisions A–D in docs/rules.md):
+//! Verdict semantics through the binary (docs/rules.md):
 //! each case builds its recording with `holdfast synth`, checks it with a
 //! small rule set, and reads results.json. The expected answers follow from
 //! how each recording is built (stated beside each case).

@@ -50,9 +50,9 @@ fn sample_results_validate_against_the_shipped_schema() {
     assert_eq!(serde_json::to_value(&typed).unwrap(), results);
 }
 
-/// The example of `results.json` schema version 1 in the interface document
-/// (../shared/design/interfaces.md), copied verbatim apart from the
-/// alternatives in verdict strings.
+/// The example of `results.json` schema version 1 as the format was agreed,
+/// copied verbatim apart from the alternatives in verdict strings: every
+/// field it names must be in the results.
 const INTERFACE_EXAMPLE: &str = r#"{
   "schema_version": 1,
   "tool": { "name": "holdfast", "version": "0.1.0" },
@@ -109,7 +109,7 @@ fn field_names_follow_the_interface_document() {
     let missing: Vec<_> = want.difference(&have).collect();
     assert!(
         missing.is_empty(),
-        "fields of interfaces.md missing from results.json: {missing:?}"
+        "fields of the agreed example missing from results.json: {missing:?}"
     );
     // The interface example itself deserialises into the typed results.
     let typed: Results = serde_json::from_value(example).unwrap();
@@ -226,7 +226,7 @@ fn designed() -> Designed {
         ),
         (
             // 12 ms fault: no trip, so the envelope passes whatever its
-            // depth (decision A.5); the reactive current cannot be judged.
+            // depth (docs/rules.md, `envelope`, short faults); the reactive current cannot be judged.
             "T10",
             "inconclusive",
             vec![
@@ -297,7 +297,7 @@ fn sample_margins_agree_with_the_verdicts() {
     let (dir, results) = (&run.dir, &run.results);
     let tests = results["tests"].as_array().unwrap();
     // Every recording has a connection check; margins agree with verdicts
-    // (decisions B.6, B.7): ≥ 0 for pass, < 0 for fail, none for
+    // (docs/rules.md, "Reasons and margins"): ≥ 0 for pass, < 0 for fail, none for
     // inconclusive and not applicable rows (nor a measured value).
     for t in tests {
         check(t, "connection");
@@ -404,7 +404,7 @@ fn inspect_json_is_versioned_and_follows_its_committed_schema() {
             .collect();
         assert!(errors.is_empty(), "{file}: {errors:#?}");
         if extra.is_empty() {
-            // Waveforms: the inception of the 0.5 s fault (decision D.14).
+            // Waveforms: the inception of the 0.5 s fault (docs/rules.md, inception and clearance).
             let inc = v["disturbances"][0]["inception_s"].as_f64().unwrap();
             assert!((inc - 0.5).abs() < 1e-3, "{inc}");
         }

@@ -1,4 +1,4 @@
-//! Property (domain reference §5): a duration table and its equivalent
+//! Property (docs/rules.md): a duration table and its equivalent
 //! envelope curve give the same verdict on monotone dips.
 //!
 //! Rows "below x_i for up to d_i" (continuous) are equivalent to the lower

@@ -1,5 +1,5 @@
-//! Active power recovery (domain reference §5; decisions C.10 and C.11 in
-//! docs/rules.md): from the disturbance end, the time until P first reaches
+//! Active power recovery (docs/rules.md,
+//! `active_power_recovery`): from the disturbance end, the time until P first reaches
 //! `fraction · P_pre` and then stays there for `hold_s`. The search ends
 //! where the next disturbance starts.
 
@@ -75,7 +75,7 @@ impl Check for ActivePowerRecoverySpec {
     fn evaluate(&self, ctx: &Context<'_>, r: CheckResult) -> CheckResult {
         evaluate_at(self, ctx, r)
     }
-    /// After a trip (decision C.11): required unless every zone check
+    /// After a trip (docs/rules.md, `active_power_recovery`): required unless every zone check
     /// concerning the disturbance calls the trip permitted.
     fn review(&self, c: &mut CheckResult, zone: &[&CheckResult]) {
         if c.reason != Some(Reason::TrippedBeforeRecovery) {

@@ -1,5 +1,5 @@
 //! `duration_table`: rows "below (above) x pu for up to d s", continuous or
-//! cumulative (domain reference §5; docs/rules.md). Verdicts as for an
+//! cumulative (docs/rules.md). Verdicts as for an
 //! envelope; a table equals its staircase envelope on monotone dips
 //! ([`zone::table_boundary`], checked by a property test).
 

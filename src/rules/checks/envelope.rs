@@ -1,5 +1,5 @@
 //! `envelope`: a voltage-against-time boundary of the ride-through zone
-//! (domain reference §5; verdicts, reasons and margins in docs/rules.md).
+//! (verdicts, reasons and margins in docs/rules.md).
 
 use crate::analysis::events::DisturbanceKind;
 use crate::rules::check::{Check, Context, FigureKind, Overlay, RuleDrawing, ZoneFacts};

@@ -6,28 +6,26 @@
 //! value checks of `rules lint`, which disturbances it concerns, its unit,
 //! the evaluation, what it hands to the figures (an overlay) and how
 //! `rules plot` draws it. The list in [`crate::rules::registry`] is the one
-//! place that knows them all: adding a check type is one new file here plus
-//! one line in that list (and its docs and tests).
-
-pub mod active_power_recovery;
-pub mod duration_table;
-pub mod envelope;
-pub mod reactive_current;
+//! place that knows them all (it also declares the modules here): adding a
+//! check type is one new file here plus one line in that list (and its docs
+//! and tests).
 
 use super::check::Check;
 use super::registry::check_types;
 use schemars::JsonSchema;
 use serde::{Deserialize, Serialize};
 
-/// Makes the rule-set format's tagged enum and the one dispatch from a
-/// spec to its [`Check`].
+/// Declares each check type's module and makes the rule-set format's
+/// tagged enum and the one dispatch from a spec to its [`Check`].
 macro_rules! define_specs {
-    ($( $(#[$doc:meta])* $variant:ident($spec:ty) = $name:literal, )*) => {
+    ($( $(#[$doc:meta])* $variant:ident($module:ident :: $spec:ident) = $name:literal, )*) => {
+        $( pub mod $module; )*
+
         /// One requirement.
         #[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
         #[serde(tag = "type", rename_all = "snake_case", deny_unknown_fields)]
         pub enum CheckSpec {
-            $( $(#[$doc])* $variant($spec), )*
+            $( $(#[$doc])* $variant($module::$spec), )*
         }
 
         impl CheckSpec {

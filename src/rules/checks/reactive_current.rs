@@ -1,5 +1,5 @@
-//! Reactive current injection (domain reference §5; decisions B.8 and D.12–15
-//! in docs/rules.md).
+//! Reactive current injection (docs/rules.md,
+//! `reactive_current`).
 //!
 //! `ΔV(t) = V(t) − V_pre` (positive or negative sequence), required extra
 //! current `ΔIq_req = −k·(|ΔV| − db)·sign(ΔV)` (offset dead band) or
@@ -471,7 +471,7 @@ fn segments(
             (a + spec.settling_time_s, b - cycle)
         } else {
             // Rise time only: the voltage between the rise-time limit and one
-            // cycle before the end (decision D.15).
+            // cycle before the end (docs/rules.md, `reactive_current`).
             (span.t_ref + spec.rise_time_s, span.qs_end)
         };
         let Some(vm) = mean_between(inp.t, inp.v, win.0, win.1) else {
@@ -657,7 +657,7 @@ impl Requirement<'_> {
 }
 
 /// Measured gain: mean of s·ΔIq/(|ΔV| − db) (offset) or s·ΔIq/|ΔV| (full)
-/// over the settled parts (decision B.8).
+/// over the settled parts (docs/rules.md, `reactive_current`).
 fn measured_gain(spec: &ReactiveCurrentSpec, inp: &ReactiveInput<'_>, segs: &[Seg]) -> Option<f64> {
     let mut gsum = 0.0;
     let mut gn = 0usize;
