@@ -64,6 +64,10 @@ pub struct CheckArgs {
     /// Directory for the evidence pack (results.json, summary.csv, ...).
     #[arg(long, default_value = "holdfast-report", value_name = "DIR")]
     pub out: PathBuf,
+    /// Also write each figure as PNG beside its SVG (for word processors;
+    /// rendering PNG takes about as long as the rest of the check).
+    #[arg(long)]
+    pub png: bool,
     /// Tests evaluated at once (0: one per core).
     #[arg(long, default_value_t = 0, value_name = "N")]
     pub jobs: usize,

@@ -34,6 +34,13 @@ pub struct Job {
     pub options: ImportOptions,
 }
 
+/// Where a test's figures go: SVG always, PNG copies when asked.
+#[derive(Clone, Copy, Debug)]
+pub struct FigureOutput<'a> {
+    pub dir: &'a Path,
+    pub png: bool,
+}
+
 /// What one test gives: its result and its figures.
 pub struct Evidence {
     pub result: TestResult,
@@ -82,14 +89,14 @@ fn file_safe(id: &str) -> String {
     }
 }
 
-/// Evaluates one test; with `plots`, also draws its figures into that directory.
+/// Evaluates one test; with `plots`, also draws its figures there.
 pub fn run_test(
     test: &ResolvedTest,
     index: usize,
     rules: &LoadedRules,
     job: &Job,
     opts: &ImportOptions,
-    plots: Option<&Path>,
+    plots: Option<FigureOutput<'_>>,
 ) -> Result<Evidence, TestError> {
     let source = import::open(&test.file, &test.map, opts)?;
     let frequency_hz = job
@@ -109,7 +116,7 @@ pub fn run_test(
     let det = engine::detection_settings(&rules.rules, frequency_hz);
     let outcome = engine::evaluate(&analysed.series, &rules.rules, &det, test.expect.as_ref());
     let figures = match plots {
-        Some(dir) => draw(test, index, rules, &analysed.series, &det, &outcome, dir)
+        Some(out) => draw(test, index, rules, &analysed.series, &det, &outcome, out)
             .map_err(TestError::Output)?,
         None => Vec::new(),
     };
@@ -126,7 +133,7 @@ pub fn run_test(
     Ok(Evidence { result, figures })
 }
 
-/// Draws the figures of one test into `dir` (SVG and PNG).
+/// Draws the figures of one test (SVG, and PNG when asked).
 fn draw(
     test: &ResolvedTest,
     index: usize,
@@ -134,8 +141,9 @@ fn draw(
     series: &crate::analysis::Series,
     det: &crate::analysis::events::DetectionSettings,
     outcome: &engine::Outcome,
-    dir: &Path,
+    out: FigureOutput<'_>,
 ) -> anyhow::Result<Vec<RenderedFigure>> {
+    let dir = out.dir;
     let mut figures = Vec::new();
     for fig in figures_of(&test.id, series, &rules.rules, det, outcome) {
         let stem = format!("{:03}-{}-{}", index + 1, file_safe(&test.id), fig.quantity);
@@ -144,14 +152,18 @@ fn draw(
         let svg_path = dir.join(format!("{stem}.svg"));
         std::fs::write(&svg_path, &svg)
             .with_context(|| format!("writing figure {}", svg_path.display()))?;
-        let png_path = dir.join(format!("{stem}.png"));
-        report::plot::png(&fig.spec, &png_path)
-            .map_err(|e| anyhow::anyhow!("writing figure {}: {e}", png_path.display()))?;
+        let mut files = vec![format!("{stem}.svg")];
+        if out.png {
+            let png_path = dir.join(format!("{stem}.png"));
+            report::plot::png(&fig.spec, &png_path)
+                .map_err(|e| anyhow::anyhow!("writing figure {}: {e}", png_path.display()))?;
+            files.push(format!("{stem}.png"));
+        }
         figures.push(RenderedFigure {
             quantity: fig.quantity.to_string(),
             title: fig.spec.title.clone(),
             svg,
-            files: vec![format!("{stem}.svg"), format!("{stem}.png")],
+            files,
         });
     }
     Ok(figures)
@@ -261,7 +273,7 @@ pub fn run_job(
     job: &Job,
     jobs: usize,
     progress: bool,
-    plots: Option<&Path>,
+    plots: Option<FigureOutput<'_>>,
 ) -> anyhow::Result<Run> {
     let mut opts = job.options;
     if job.tests.len() > 1 {

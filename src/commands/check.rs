@@ -140,7 +140,10 @@ pub fn run(args: &CheckArgs) -> anyhow::Result<ExitStatus> {
         &job,
         args.jobs,
         std::io::stderr().is_terminal(),
-        Some(&plots),
+        Some(pipeline::FigureOutput {
+            dir: &plots,
+            png: args.png,
+        }),
     )?;
     for r in report::REPORTERS {
         pack.file(r.file_name(), &r.render(&run.results, &run.figures)?)?;

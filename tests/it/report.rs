@@ -53,10 +53,10 @@ fn report_has_every_test_check_and_figure_and_nothing_external() {
         let svgs = section.matches("<svg").count();
         assert!(svgs >= want.len(), "{id}: {svgs} figures for {want:?}");
         for q in want {
-            for ext in ["svg", "png"] {
-                let f = plots.join(format!("{:03}-{id}-{q}.{ext}", k + 1));
-                assert!(f.exists(), "{}", f.display());
-            }
+            let f = plots.join(format!("{:03}-{id}-{q}.svg", k + 1));
+            assert!(f.exists(), "{}", f.display());
+            // PNG copies only with --png.
+            assert!(!f.with_extension("png").exists(), "{}", f.display());
         }
     }
 }
@@ -328,4 +328,51 @@ fn report_renders_in_a_headless_browser() {
         pages >= tests && pages <= tests + 3,
         "{pages} printed pages for {tests} tests"
     );
+}
+
+#[test]
+fn png_copies_only_when_asked() {
+    let dir = tempfile::tempdir().unwrap();
+    let rec = dir.path().join("rec.csv");
+    let mut spec = holdfast::synth::SynthSpec::example();
+    spec.sample_rate_hz = 2000.0;
+    spec.duration_s = 1.5;
+    let mut f = std::fs::File::create(&rec).unwrap();
+    holdfast::synth::write_csv(&spec, &mut f).unwrap();
+    let rules = root().join("rules/eu-rfg-ppm-type-d-example.yaml");
+    let count = |out: &std::path::Path, ext: &str| {
+        std::fs::read_dir(out.join("plots"))
+            .unwrap()
+            .filter(|e| {
+                e.as_ref()
+                    .unwrap()
+                    .path()
+                    .extension()
+                    .is_some_and(|x| x == ext)
+            })
+            .count()
+    };
+    for (png, out) in [(false, dir.path().join("a")), (true, dir.path().join("b"))] {
+        let mut cmd = holdfast();
+        cmd.args(["check", "--rules"])
+            .arg(&rules)
+            .args(crate::common::RATINGS)
+            .arg("--out")
+            .arg(&out)
+            .arg(&rec);
+        if png {
+            cmd.arg("--png");
+        }
+        let o = cmd.output().unwrap();
+        assert!(
+            matches!(o.status.code(), Some(0 | 1)),
+            "{}",
+            String::from_utf8_lossy(&o.stderr)
+        );
+        let svgs = count(&out, "svg");
+        assert!(svgs >= 2, "{svgs}");
+        assert_eq!(count(&out, "png"), if png { svgs } else { 0 });
+        let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+        assert_eq!(html.contains(".png</code>"), png);
+    }
 }
