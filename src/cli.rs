@@ -247,7 +247,7 @@ impl MapArgs {
 
 #[derive(Args, Debug)]
 pub struct InspectArgs {
-    /// Recording file (.csv).
+    /// Recording file: CSV (.csv, .txt, .tsv) or COMTRADE (.cfg with its .dat, or .cff).
     pub recording: PathBuf,
     #[command(flatten)]
     pub ratings: RatingArgs,

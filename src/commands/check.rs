@@ -73,7 +73,20 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
                 )
                 .into());
             }
-            let lp = plan::load(&args.inputs[0])?;
+            let input = &args.inputs[0];
+            let ext = input
+                .extension()
+                .and_then(|e| e.to_str())
+                .unwrap_or("")
+                .to_ascii_lowercase();
+            if ["csv", "txt", "tsv", "cfg", "cff", "dat"].contains(&ext.as_str()) {
+                return Err(UsageError(format!(
+                    "{} is a recording, not a test plan: check recordings with --rules RULES.yaml (and the unit's ratings), or give a plan (.yaml)",
+                    crate::text::line(&input.display().to_string())
+                ))
+                .into());
+            }
+            let lp = plan::load(input)?;
             let rules = load_rules(&lp.rule_files, &crate::cli::parse_set(&args.set)?)?;
             options.threads = 0;
             Ok(Job {

@@ -222,3 +222,20 @@ fn iso_timestamps_with_a_decimal_comma_are_read() {
     let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
     assert!((v["recording"]["sample_rate_hz"].as_f64().unwrap() - 1000.0).abs() < 1e-6);
 }
+
+#[test]
+fn a_recording_given_as_a_plan_says_to_use_rules() {
+    let dir = tempfile::tempdir().unwrap();
+    let p = write(&dir, "rec.csv", b"t,va,vb,vc\n0,1,2,3\n0.0001,1,2,3\n");
+    holdfast()
+        .arg("check")
+        .arg(&p)
+        .arg("--out")
+        .arg(dir.path().join("out"))
+        .assert()
+        .code(2)
+        .stderr(
+            predicate::str::contains("rec.csv is a recording, not a test plan")
+                .and(predicate::str::contains("--rules")),
+        );
+}
