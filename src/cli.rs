@@ -68,6 +68,17 @@ pub struct CheckArgs {
     /// rendering PNG takes about as long as the rest of the check).
     #[arg(long)]
     pub png: bool,
+    /// Print results.json to stdout instead of the table (the pack is
+    /// written as usual).
+    #[arg(long, conflicts_with = "quiet")]
+    pub json: bool,
+    /// Print nothing but errors; the exit status gives the verdict.
+    #[arg(long, short = 'q')]
+    pub quiet: bool,
+    /// Verdict colours in the table: auto (on a terminal, unless NO_COLOR
+    /// is set or TERM is dumb), always or never.
+    #[arg(long, value_enum, default_value_t = ColorChoice::Auto, value_name = "WHEN")]
+    pub color: ColorChoice,
     /// Tests evaluated at once (0: one per core).
     #[arg(long, default_value_t = 0, value_name = "N")]
     pub jobs: usize,
@@ -78,6 +89,28 @@ pub struct CheckArgs {
     pub ratings: RatingArgs,
     #[command(flatten)]
     pub map: MapArgs,
+}
+
+/// When the terminal table is coloured.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum ColorChoice {
+    Auto,
+    Always,
+    Never,
+}
+
+impl ColorChoice {
+    /// Whether to colour output going to a terminal (`tty`) with the
+    /// environment's `NO_COLOR` and `TERM`.
+    pub fn decide(self, tty: bool, no_color: Option<&str>, term: Option<&str>) -> bool {
+        match self {
+            ColorChoice::Always => true,
+            ColorChoice::Never => false,
+            ColorChoice::Auto => {
+                tty && no_color.is_none_or(|v| v.is_empty()) && term != Some("dumb")
+            }
+        }
+    }
 }
 
 #[derive(Args, Debug)]

@@ -166,13 +166,22 @@ pub fn run(args: &CheckArgs) -> anyhow::Result<ExitStatus> {
     let tty = stdout.is_terminal();
     let mut out = stdout.lock();
     let results = &run.results;
-    write!(out, "{}", report::table::render(results, tty))?;
-    writeln!(
-        out,
-        "\nEvidence pack: {}",
-        crate::text::line(&args.out.display().to_string())
-    )?;
-    writeln!(out, "{CAUTION}")?;
+    if args.json {
+        out.write_all(&report::json(results)?)?;
+    } else if !args.quiet {
+        let colour = args.color.decide(
+            tty,
+            std::env::var("NO_COLOR").ok().as_deref(),
+            std::env::var("TERM").ok().as_deref(),
+        );
+        write!(out, "{}", report::table::render(results, tty, colour))?;
+        writeln!(
+            out,
+            "\nEvidence pack: {}",
+            crate::text::line(&args.out.display().to_string())
+        )?;
+        writeln!(out, "{CAUTION}")?;
+    }
     Ok(if results.verdict == Verdict::Pass {
         ExitStatus::Success
     } else {

@@ -7,7 +7,7 @@ use crate::rules::result::{Results, Verdict};
 use crate::text;
 use comfy_table::{presets, Cell, Color, ContentArrangement, Table};
 
-fn colour(v: Verdict) -> Color {
+fn verdict_colour(v: Verdict) -> Color {
     match v {
         Verdict::Pass => Color::Green,
         Verdict::Fail => Color::Red,
@@ -16,9 +16,13 @@ fn colour(v: Verdict) -> Color {
     }
 }
 
-/// Renders the results; `tty` chooses box drawing and colour.
-pub fn render(results: &Results, tty: bool) -> String {
+/// Renders the results; `tty` chooses box drawing, `colour` the verdict
+/// colours (without it the text has no escape codes at all).
+pub fn render(results: &Results, tty: bool, colour: bool) -> String {
     let mut t = Table::new();
+    if colour {
+        t.enforce_styling();
+    }
     if tty {
         t.load_style(presets::UTF8_FULL_CONDENSED);
         t.set_content_arrangement(ContentArrangement::Dynamic);
@@ -33,8 +37,8 @@ pub fn render(results: &Results, tty: bool) -> String {
     for test in &results.tests {
         for (k, c) in test.checks.iter().enumerate() {
             let verdict = Cell::new(c.verdict.name());
-            let verdict = if tty {
-                verdict.fg(colour(c.verdict))
+            let verdict = if colour {
+                verdict.fg(verdict_colour(c.verdict))
             } else {
                 verdict
             };

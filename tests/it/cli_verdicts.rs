@@ -630,3 +630,51 @@ fn report_and_table_show_reasons() {
     let c = check_of(&run, 0, "lvrt");
     assert!(c["margin"].as_f64().unwrap() < 0.0);
 }
+
+#[test]
+fn json_quiet_and_colour_of_the_check_output() {
+    let d = tempfile::tempdir().unwrap();
+    let rec = synth(d.path(), "a.csv", &["--duration", "2"]);
+    let r = rules(d.path(), LVRT, "");
+    let run = |extra: &[&str]| {
+        let out = d.path().join(format!("pack-{}", extra.join("")));
+        let o = holdfast()
+            .arg("check")
+            .arg("--rules")
+            .arg(&r)
+            .args(RATINGS)
+            .args(extra)
+            .arg("--out")
+            .arg(&out)
+            .arg(&rec)
+            .output()
+            .unwrap();
+        (o, out)
+    };
+    // --json: stdout is the pack's results.json, byte for byte.
+    let (o, out) = run(&["--json"]);
+    assert!(matches!(o.status.code(), Some(0 | 1)));
+    assert_eq!(o.stdout, std::fs::read(out.join("results.json")).unwrap());
+    // --quiet: nothing on stdout, the verdict in the exit status.
+    let (q, _) = run(&["--quiet"]);
+    assert!(q.stdout.is_empty());
+    assert_eq!(q.status.code(), o.status.code());
+    // Colour: none when stdout is not a terminal, unless asked for.
+    let esc = |o: &std::process::Output| o.stdout.windows(2).any(|w| w == b"\x1b[");
+    assert!(!esc(&run(&[]).0));
+    assert!(!esc(&run(&["--color", "never"]).0));
+    assert!(esc(&run(&["--color", "always"]).0));
+}
+
+#[test]
+fn colour_follows_no_color_and_dumb_terminals() {
+    use holdfast::cli::ColorChoice;
+    // The NO_COLOR convention (no-color.org): set and not empty means no colour.
+    assert!(ColorChoice::Auto.decide(true, None, Some("xterm")));
+    assert!(ColorChoice::Auto.decide(true, Some(""), Some("xterm")));
+    assert!(!ColorChoice::Auto.decide(true, Some("1"), Some("xterm")));
+    assert!(!ColorChoice::Auto.decide(true, None, Some("dumb")));
+    assert!(!ColorChoice::Auto.decide(false, None, Some("xterm")));
+    assert!(ColorChoice::Always.decide(false, Some("1"), Some("dumb")));
+    assert!(!ColorChoice::Never.decide(true, None, None));
+}
