@@ -143,7 +143,16 @@ pub enum RulesCommand {
     /// Print the JSON Schema of the rule-set format.
     Schema,
     /// List the rule sets shipped with holdfast: title, source, parameters.
-    List,
+    List {
+        /// As JSON (an array, one object per rule set).
+        #[arg(long)]
+        json: bool,
+    },
+    /// Print a shipped rule set's YAML (by its id or file name), to copy and adapt.
+    Export {
+        /// Rule-set id or file name, as `rules list` shows them.
+        id: String,
+    },
 }
 
 /// The unit's ratings (shared by `inspect` and the one-off `check`).

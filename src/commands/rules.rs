@@ -40,31 +40,21 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<ExitStatus> {
             writeln!(std::io::stdout().lock(), "{text}")?;
             Ok(ExitStatus::Success)
         }
-        RulesCommand::List => {
-            let mut out = std::io::stdout().lock();
-            for (name, text) in crate::rules::library::SHIPPED {
-                let path = std::path::Path::new("rules").join(name);
-                let sha = crate::digest::sha256_bytes(text.as_bytes());
-                let loaded = crate::rules::load_text(&path, text, sha, &Default::default())?;
-                let r = &loaded.rules;
-                writeln!(out, "rules/{name}")?;
-                writeln!(out, "  title   {}", r.title)?;
-                writeln!(out, "  source  {}", r.source)?;
-                writeln!(
-                    out,
-                    "  checks  {}",
-                    r.checks
-                        .iter()
-                        .map(|c| format!("{} ({})", c.id(), c.type_name()))
-                        .collect::<Vec<_>>()
-                        .join(", ")
-                )?;
-                for p in &loaded.parameters {
-                    writeln!(out, "  param   {}", param_line(p, false))?;
-                }
-                writeln!(out)?;
-            }
-            writeln!(out, "{}", crate::cli::CAUTION)?;
+        RulesCommand::List { json } => list(*json),
+        RulesCommand::Export { id } => {
+            let Some((_, text)) = shipped(id) else {
+                let names: Vec<&str> = crate::rules::library::SHIPPED
+                    .iter()
+                    .map(|(n, _)| *n)
+                    .collect();
+                return Err(crate::error::UsageError(format!(
+                    "no shipped rule set '{}'; `holdfast rules list` shows them: {}",
+                    crate::text::line(id),
+                    names.join(", ")
+                ))
+                .into());
+            };
+            std::io::stdout().lock().write_all(text.as_bytes())?;
             Ok(ExitStatus::Success)
         }
         RulesCommand::Plot { file, out, set } => {
@@ -137,4 +127,71 @@ fn param_line(p: &crate::rules::params::Resolved, origin: bool) -> String {
             format!(" – {}", p.description)
         }
     )
+}
+
+/// The shipped rule set named by its id or file name (with or without `.yaml`).
+fn shipped(id: &str) -> Option<(&'static str, &'static str)> {
+    crate::rules::library::SHIPPED
+        .iter()
+        .copied()
+        .find(|(name, text)| {
+            *name == id
+                || name.strip_suffix(".yaml") == Some(id)
+                || crate::rules::yaml::parse_tree::<IdOnly>(text).is_some_and(|r| r.id == id)
+        })
+}
+
+#[derive(serde::Deserialize)]
+struct IdOnly {
+    id: String,
+}
+
+/// `rules list`: every shipped rule set with title, source, checks and
+/// parameters, as text or JSON.
+fn list(json: bool) -> anyhow::Result<ExitStatus> {
+    let mut out = std::io::stdout().lock();
+    let mut all = Vec::new();
+    for (name, text) in crate::rules::library::SHIPPED {
+        let path = std::path::Path::new("rules").join(name);
+        let sha = crate::digest::sha256_bytes(text.as_bytes());
+        let loaded = crate::rules::load_text(&path, text, sha, &Default::default())?;
+        let r = &loaded.rules;
+        if json {
+            all.push(serde_json::json!({
+                "file": format!("rules/{name}"),
+                "id": r.id,
+                "title": r.title,
+                "source": r.source,
+                "checks": r.checks.iter().map(|c| serde_json::json!({
+                    "id": c.id(),
+                    "type": c.type_name(),
+                })).collect::<Vec<_>>(),
+                "parameters": loaded.parameters,
+            }));
+            continue;
+        }
+        writeln!(out, "rules/{name}  (id {})", r.id)?;
+        writeln!(out, "  title   {}", r.title)?;
+        writeln!(out, "  source  {}", r.source)?;
+        writeln!(
+            out,
+            "  checks  {}",
+            r.checks
+                .iter()
+                .map(|c| format!("{} ({})", c.id(), c.type_name()))
+                .collect::<Vec<_>>()
+                .join(", ")
+        )?;
+        for p in &loaded.parameters {
+            writeln!(out, "  param   {}", param_line(p, false))?;
+        }
+        writeln!(out)?;
+    }
+    if json {
+        serde_json::to_writer_pretty(&mut out, &all)?;
+        writeln!(out)?;
+    } else {
+        writeln!(out, "{}", crate::cli::CAUTION)?;
+    }
+    Ok(ExitStatus::Success)
 }

@@ -160,3 +160,35 @@ fn plan_errors_name_the_place() {
         .code(2)
         .stderr(predicate::str::contains("frequency_hz"));
 }
+
+#[test]
+fn shipped_rule_sets_are_listed_as_json_and_exported_by_id() {
+    let out = holdfast()
+        .args(["rules", "list", "--json"])
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    let list: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let list = list.as_array().unwrap();
+    assert_eq!(list.len(), holdfast::rules::library::SHIPPED.len());
+    for r in list {
+        let file = r["file"].as_str().unwrap();
+        let id = r["id"].as_str().unwrap();
+        assert!(!r["checks"].as_array().unwrap().is_empty(), "{file}");
+        // Export by id and by file name gives the file's bytes.
+        let want = std::fs::read(crate::common::root().join(file)).unwrap();
+        let name = file.trim_start_matches("rules/");
+        for key in [id, name] {
+            let e = holdfast().args(["rules", "export", key]).output().unwrap();
+            assert!(e.status.success(), "{key}");
+            assert_eq!(e.stdout, want, "{key}");
+        }
+    }
+    holdfast()
+        .args(["rules", "export", "no-such-rules"])
+        .assert()
+        .code(2)
+        .stderr(predicate::str::contains(
+            "no shipped rule set 'no-such-rules'",
+        ));
+}
