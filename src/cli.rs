@@ -52,7 +52,8 @@ pub enum PlanCommand {
 
 #[derive(Args, Debug)]
 #[command(
-    after_help = "Exit status: 0 every test passed (or was not applicable), 1 some test failed or was inconclusive, 2 the input could not be used."
+    after_help = "Exit status: 0 every test passed (or was not applicable), 1 some test failed or was inconclusive, 2 the input could not be used.",
+    allow_negative_numbers = true
 )]
 pub struct CheckArgs {
     /// A test plan (PLAN.yaml), or recordings when --rules is given.
@@ -288,6 +289,7 @@ impl MapArgs {
 }
 
 #[derive(Args, Debug)]
+#[command(allow_negative_numbers = true)]
 pub struct InspectArgs {
     /// Recording file: CSV (.csv, .txt, .tsv) or COMTRADE (.cfg with its .dat, or .cff).
     pub recording: PathBuf,
@@ -315,7 +317,7 @@ pub struct InspectArgs {
 }
 
 #[derive(Args, Debug)]
-#[command(args_override_self = true)]
+#[command(args_override_self = true, allow_negative_numbers = true)]
 pub struct SynthArgs {
     /// Output file: .csv, or COMTRADE .cfg (with .dat beside it) or .cff.
     #[arg(long, short, value_name = "FILE")]

@@ -239,3 +239,23 @@ fn a_recording_given_as_a_plan_says_to_use_rules() {
                 .and(predicate::str::contains("--rules")),
         );
 }
+
+#[test]
+fn negative_numbers_are_option_values() {
+    let dir = tempfile::tempdir().unwrap();
+    let p = dir.path().join("jump.csv");
+    holdfast()
+        .args(["synth", "--duration", "1", "--phase-jump", "-12", "--out"])
+        .arg(&p)
+        .assert()
+        .success();
+    // A negative value reaches the option's own check, not the parser.
+    holdfast()
+        .arg("inspect")
+        .arg(&p)
+        .args(RATINGS)
+        .args(["--below-pu", "-0.5"])
+        .assert()
+        .code(2)
+        .stderr(predicate::str::contains("--below-pu must be in (0, 1)"));
+}
