@@ -12,6 +12,24 @@ use crate::rules::{self, LoadedRules};
 use std::io::{IsTerminal, Write};
 use std::path::{Path, PathBuf};
 
+/// A rule set from its file, or, when no such file exists and the name has
+/// no folder, the shipped rule set of that id or file name.
+fn load_one(
+    p: &Path,
+    plan_values: &std::collections::BTreeMap<String, f64>,
+    cli: &std::collections::BTreeMap<String, f64>,
+) -> Result<(LoadedRules, Vec<String>), InputErrors> {
+    let bare = p.components().count() == 1;
+    if !p.exists() && bare {
+        if let Some((name, text)) = p.to_str().and_then(rules::library::find) {
+            let label = Path::new("rules").join(name);
+            let sha = crate::digest::sha256_bytes(text.as_bytes());
+            return rules::load_text_choosing(&label, text, sha, plan_values, cli);
+        }
+    }
+    rules::load_choosing(p, plan_values, cli)
+}
+
 /// Loads each rule set with its parameter values (from the plan), with the
 /// `--set` values over them for every rule set that declares the name.
 fn load_rules(
@@ -22,7 +40,7 @@ fn load_rules(
     let mut errs = Vec::new();
     let mut used = std::collections::BTreeSet::new();
     for (p, plan_values) in sets {
-        match rules::load_choosing(p, plan_values, cli) {
+        match load_one(p, plan_values, cli) {
             Ok((r, names)) => {
                 used.extend(names);
                 out.push(r)

@@ -42,7 +42,7 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<ExitStatus> {
         }
         RulesCommand::List { json } => list(*json),
         RulesCommand::Export { id } => {
-            let Some((_, text)) = shipped(id) else {
+            let Some((_, text)) = crate::rules::library::find(id) else {
                 let names: Vec<&str> = crate::rules::library::SHIPPED
                     .iter()
                     .map(|(n, _)| *n)
@@ -127,23 +127,6 @@ fn param_line(p: &crate::rules::params::Resolved, origin: bool) -> String {
             format!(" – {}", p.description)
         }
     )
-}
-
-/// The shipped rule set named by its id or file name (with or without `.yaml`).
-fn shipped(id: &str) -> Option<(&'static str, &'static str)> {
-    crate::rules::library::SHIPPED
-        .iter()
-        .copied()
-        .find(|(name, text)| {
-            *name == id
-                || name.strip_suffix(".yaml") == Some(id)
-                || crate::rules::yaml::parse_tree::<IdOnly>(text).is_some_and(|r| r.id == id)
-        })
-}
-
-#[derive(serde::Deserialize)]
-struct IdOnly {
-    id: String,
 }
 
 /// `rules list`: every shipped rule set with title, source, checks and

@@ -61,3 +61,17 @@ pub const SHIPPED: &[(&str, &str)] = &[
         include_str!("../../rules/reactive-current-european-transmission.yaml"),
     ),
 ];
+
+/// The shipped rule set named by its id or file name (with or without
+/// `.yaml`): `(file name, text)`.
+pub fn find(id: &str) -> Option<(&'static str, &'static str)> {
+    #[derive(serde::Deserialize)]
+    struct IdOnly {
+        id: String,
+    }
+    SHIPPED.iter().copied().find(|(name, text)| {
+        *name == id
+            || name.strip_suffix(".yaml") == Some(id)
+            || super::yaml::parse_tree::<IdOnly>(text).is_some_and(|r| r.id == id)
+    })
+}

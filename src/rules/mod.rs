@@ -59,8 +59,19 @@ pub fn load_choosing(
     cli: &std::collections::BTreeMap<String, f64>,
 ) -> Result<(LoadedRules, Vec<String>), InputErrors> {
     let (raw, sha256) = yaml::read_text_hashed(path, "rule set")?;
+    load_text_choosing(path, &raw, sha256, plan, cli)
+}
+
+/// [`load_choosing`] from the text (`path` names it in messages).
+pub fn load_text_choosing(
+    path: &Path,
+    raw: &str,
+    sha256: String,
+    plan: &std::collections::BTreeMap<String, f64>,
+    cli: &std::collections::BTreeMap<String, f64>,
+) -> Result<(LoadedRules, Vec<String>), InputErrors> {
     let mut used = Vec::new();
-    let rules = load_text_with(path, &raw, sha256, |declared| {
+    let rules = load_text_with(path, raw, sha256, |declared| {
         let mut choices: params::Choices = plan
             .iter()
             .map(|(k, v)| (k.clone(), (*v, "plan".to_string())))

@@ -192,3 +192,53 @@ fn shipped_rule_sets_are_listed_as_json_and_exported_by_id() {
             "no shipped rule set 'no-such-rules'",
         ));
 }
+
+#[test]
+fn check_takes_a_shipped_rule_set_by_id() {
+    let dir = tempfile::tempdir().unwrap();
+    let rec = dir.path().join("rec.csv");
+    holdfast()
+        .args([
+            "synth",
+            "--duration",
+            "1.5",
+            "--sample-rate",
+            "2000",
+            "--out",
+        ])
+        .arg(&rec)
+        .assert()
+        .success();
+    let out = dir.path().join("pack");
+    let o = holdfast()
+        .current_dir(dir.path())
+        .args(["check", "--rules", "nerc-prc-024-3"])
+        .args(crate::common::RATINGS)
+        .arg("--out")
+        .arg(&out)
+        .arg(&rec)
+        .output()
+        .unwrap();
+    assert!(
+        matches!(o.status.code(), Some(0 | 1)),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let r: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("results.json")).unwrap()).unwrap();
+    assert_eq!(r["rules"]["id"], "nerc-prc-024-3");
+    assert_eq!(r["rules"]["path"], "rules/nerc-prc-024-3.yaml");
+    // The hash is of the shipped text, the same as the file in rules/.
+    let text = std::fs::read(crate::common::root().join("rules/nerc-prc-024-3.yaml")).unwrap();
+    assert_eq!(r["rules"]["sha256"], holdfast::digest::sha256_bytes(&text));
+    // A name with a folder is a path, never a library id.
+    holdfast()
+        .current_dir(dir.path())
+        .args(["check", "--rules", "x/nerc-prc-024-3"])
+        .args(crate::common::RATINGS)
+        .arg("--out")
+        .arg(dir.path().join("pack2"))
+        .arg(&rec)
+        .assert()
+        .code(2);
+}
