@@ -92,12 +92,7 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
                 .into());
             }
             let input = &args.inputs[0];
-            let ext = input
-                .extension()
-                .and_then(|e| e.to_str())
-                .unwrap_or("")
-                .to_ascii_lowercase();
-            if ["csv", "txt", "tsv", "cfg", "cff", "dat"].contains(&ext.as_str()) {
+            if input.extension().is_some() && crate::import::is_recording(input) {
                 return Err(UsageError(format!(
                     "{} is a recording, not a test plan: check recordings with --rules RULES.yaml (and the unit's ratings), or give a plan (.yaml)",
                     crate::text::line(&input.display().to_string())

@@ -78,6 +78,21 @@ pub trait Source: Send {
     fn stream(self: Box<Self>, sink: &mut dyn FrameSink) -> Result<RecordingInfo, InputError>;
 }
 
+/// File extensions (lower case) of recordings: CSV, and COMTRADE's
+/// configuration, single file and data file.
+pub const RECORDING_EXTENSIONS: [&str; 7] = ["csv", "txt", "tsv", "", "cfg", "cff", "dat"];
+
+/// Whether `path` names a recording by its extension (a file without one is
+/// read as CSV).
+pub fn is_recording(path: &Path) -> bool {
+    let ext = path
+        .extension()
+        .and_then(|e| e.to_str())
+        .unwrap_or("")
+        .to_ascii_lowercase();
+    RECORDING_EXTENSIONS.contains(&ext.as_str())
+}
+
 /// Opens a recording, choosing the importer by file extension.
 pub fn open(
     path: &Path,

@@ -196,19 +196,12 @@ fn shipped_rule_sets_are_listed_as_json_and_exported_by_id() {
 #[test]
 fn check_takes_a_shipped_rule_set_by_id() {
     let dir = tempfile::tempdir().unwrap();
-    let rec = dir.path().join("rec.csv");
-    holdfast()
-        .args([
-            "synth",
-            "--duration",
-            "1.5",
-            "--sample-rate",
-            "2000",
-            "--out",
-        ])
-        .arg(&rec)
-        .assert()
-        .success();
+    let rec = crate::common::synth(
+        dir.path(),
+        "rec.csv",
+        &["--duration", "1.5", "--sample-rate", "2000"],
+        &[],
+    );
     let out = dir.path().join("pack");
     let o = holdfast()
         .current_dir(dir.path())

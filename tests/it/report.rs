@@ -333,12 +333,12 @@ fn report_renders_in_a_headless_browser() {
 #[test]
 fn png_copies_only_when_asked() {
     let dir = tempfile::tempdir().unwrap();
-    let rec = dir.path().join("rec.csv");
-    let mut spec = holdfast::synth::SynthSpec::example();
-    spec.sample_rate_hz = 2000.0;
-    spec.duration_s = 1.5;
-    let mut f = std::fs::File::create(&rec).unwrap();
-    holdfast::synth::write_csv(&spec, &mut f).unwrap();
+    let rec = crate::common::synth(
+        dir.path(),
+        "rec.csv",
+        &["--sample-rate", "2000", "--duration", "1.5"],
+        &[],
+    );
     let rules = root().join("rules/eu-rfg-ppm-type-d-example.yaml");
     let count = |out: &std::path::Path, ext: &str| {
         std::fs::read_dir(out.join("plots"))
