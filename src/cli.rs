@@ -48,6 +48,25 @@ pub struct PlanArgs {
 pub enum PlanCommand {
     /// Print the JSON Schema of the test-plan format.
     Schema,
+    /// Write a test plan from a folder of recordings: one test per recording
+    /// (CSV, COMTRADE .cfg/.cff; sub-folders included), the channels found in
+    /// each, and the unit's ratings and the rule set left to fill in.
+    #[command(
+        after_help = "The plan is written to DIR/plan.yaml unless --out says otherwise; an existing file is kept unless --force. Fill in the values marked FILL IN, then run `holdfast check PLAN`."
+    )]
+    Init(PlanInitArgs),
+}
+
+#[derive(Args, Debug)]
+pub struct PlanInitArgs {
+    /// Folder with the recordings.
+    pub dir: PathBuf,
+    /// Where to write the plan (default DIR/plan.yaml).
+    #[arg(short, long, value_name = "FILE")]
+    pub out: Option<PathBuf>,
+    /// Replace an existing plan file.
+    #[arg(long)]
+    pub force: bool,
 }
 
 #[derive(Args, Debug)]

@@ -106,8 +106,39 @@ impl<R: Read> Read for Hashing<R> {
     }
 }
 
+/// A path as results name it: `.` and `folder/..` removed lexically (links
+/// are not resolved), `/` between the parts on every system.
+pub fn normalised(path: &Path) -> String {
+    use std::path::Component;
+    let mut parts: Vec<String> = Vec::new();
+    let mut root = String::new();
+    for c in path.components() {
+        match c {
+            Component::Prefix(p) => root = p.as_os_str().to_string_lossy().into_owned(),
+            Component::RootDir => root.push('/'),
+            Component::CurDir => {}
+            Component::ParentDir => match parts.last() {
+                Some(last) if last != ".." => {
+                    parts.pop();
+                }
+                // Above the root there is nothing to go up to.
+                _ if !root.is_empty() => {}
+                _ => parts.push("..".into()),
+            },
+            Component::Normal(n) => parts.push(n.to_string_lossy().into_owned()),
+        }
+    }
+    let body = parts.join("/");
+    match (root.is_empty(), body.is_empty()) {
+        (true, true) => ".".into(),
+        (true, false) => body,
+        (false, _) => root + &body,
+    }
+}
+
 #[cfg(test)]
 mod tests {
+    use super::normalised;
     use super::*;
 
     #[test]
@@ -122,5 +153,15 @@ mod tests {
             d,
             "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
         );
+    }
+
+    #[test]
+    fn paths_are_normalised_lexically() {
+        let n = |s: &str| normalised(std::path::Path::new(s));
+        assert_eq!(n("sample-data/../rules/a.yaml"), "rules/a.yaml");
+        assert_eq!(n("./a/./b.csv"), "a/b.csv");
+        assert_eq!(n("../x/../../y"), "../../y");
+        assert_eq!(n("/a/../../b"), "/b");
+        assert_eq!(n("a/.."), ".");
     }
 }

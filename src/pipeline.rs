@@ -32,6 +32,8 @@ pub struct Job {
     pub rules: Vec<LoadedRules>,
     pub tests: Vec<ResolvedTest>,
     pub options: ImportOptions,
+    /// The plan's description and project fields.
+    pub project: Option<crate::rules::result::ProjectInfo>,
 }
 
 /// Where a test's figures go: SVG always, PNG copies when asked.
@@ -59,33 +61,16 @@ impl From<InputError> for TestError {
     }
 }
 
+/// The phasor method, in words, for the results.
+const ANALYSIS_METHOD: &str = "fundamental phasors by a sliding one-cycle DFT of each phase (nominal frequency), symmetrical components from them; per unit on the unit's ratings; active and reactive current against the positive-sequence voltage";
+
 pub fn file_ref(r: &LoadedRules) -> FileRef {
     FileRef {
         id: Some(r.rules.id.clone()),
-        path: r.path.display().to_string(),
+        path: crate::files::normalised(&r.path),
         sha256: r.sha256.clone(),
         title: Some(r.rules.title.clone()),
         source: Some(r.rules.source.clone()),
-    }
-}
-
-/// Keeps letters, digits, '-' and '_' of a test id for file names.
-fn file_safe(id: &str) -> String {
-    let s: String = id
-        .chars()
-        .map(|c| {
-            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
-                c
-            } else {
-                '_'
-            }
-        })
-        .take(60)
-        .collect();
-    if s.is_empty() {
-        "test".into()
-    } else {
-        s
     }
 }
 
@@ -129,7 +114,13 @@ pub fn run_test(
         }
     }
     notes.extend(outcome.notes.iter().cloned());
-    let result = test_result(test, rules, &analysed.info, outcome, notes)?;
+    let analysis = crate::rules::result::TestAnalysis {
+        frequency_hz,
+        window_s: 1.0 / frequency_hz,
+        detection: det,
+    };
+    let mut result = test_result(test, rules, &analysed.info, outcome, notes)?;
+    result.analysis = Some(analysis);
     Ok(Evidence { result, figures })
 }
 
@@ -146,7 +137,12 @@ fn draw(
     let dir = out.dir;
     let mut figures = Vec::new();
     for fig in figures_of(&test.id, series, &rules.rules, det, outcome) {
-        let stem = format!("{:03}-{}-{}", index + 1, file_safe(&test.id), fig.quantity);
+        let stem = format!(
+            "{:03}-{}-{}",
+            index + 1,
+            crate::text::file_safe(&test.id),
+            fig.quantity
+        );
         let (svg, _) = report::plot::svg(&fig.spec)
             .map_err(|e| anyhow::anyhow!("drawing figure {stem}: {e}"))?;
         let svg_path = dir.join(format!("{stem}.svg"));
@@ -204,6 +200,7 @@ pub fn figures_of(
             .iter()
             .map(|c| c.check().extent_s())
             .fold(0.0, f64::max),
+        cycle_s: 1.0 / det.frequency_hz,
     })
 }
 
@@ -224,7 +221,7 @@ fn test_result(
     Ok(TestResult {
         id: test.id.clone(),
         recording: RecordingResult {
-            path: test.file.display().to_string(),
+            path: crate::files::normalised(&test.file),
             sha256,
             sample_rate_hz: info.sample_rate_hz,
             duration_s: info.duration_s,
@@ -236,7 +233,7 @@ fn test_result(
                 .files
                 .iter()
                 .map(|(path, sha256)| HashedFile {
-                    path: path.clone(),
+                    path: crate::files::normalised(Path::new(path)),
                     sha256: sha256.clone(),
                 })
                 .collect(),
@@ -257,6 +254,9 @@ fn test_result(
             .map(|p| (p.name.clone(), p.value))
             .collect(),
         notes,
+        rule_set: Some(rules.rules.id.clone()),
+        description: test.description.clone(),
+        analysis: None,
     })
 }
 
@@ -330,10 +330,11 @@ pub fn run_job(
         tool: Tool {
             name: "holdfast".into(),
             version: env!("CARGO_PKG_VERSION").into(),
+            commit: option_env!("HOLDFAST_COMMIT").map(Into::into),
         },
         plan: job.plan.as_ref().map(|(p, sha)| FileRef {
             id: None,
-            path: p.display().to_string(),
+            path: crate::files::normalised(p),
             sha256: sha.clone(),
             title: None,
             source: None,
@@ -345,6 +346,17 @@ pub fn run_job(
         generated_utc: Some(chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true)),
         command_line: Some(command_line()),
         caution: Some(CAUTION.into()),
+        project: job.project.clone(),
+        ratings: job
+            .ratings
+            .as_ref()
+            .map(|r| crate::rules::result::RatingsReport::new(r, job.frequency_hz)),
+        analysis: Some(crate::rules::result::AnalysisReport {
+            method: ANALYSIS_METHOD.into(),
+            window_cycles: 1,
+            points_per_cycle: POINTS_PER_CYCLE,
+        }),
+        rule_sets: report::rule_sets::applied(&job.rules),
     };
     Ok(Run { results, figures })
 }

@@ -15,6 +15,12 @@ use std::path::{Path, PathBuf};
 #[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct Plan {
+    /// What this plan tests, in a sentence or two (shown in the report).
+    #[serde(default)]
+    pub description: Option<String>,
+    /// Who the evidence is for (shown on the report's first page).
+    #[serde(default)]
+    pub project: Option<ProjectSpec>,
     pub unit: UnitSpec,
     /// Rule set file, relative to the plan.
     pub rules: String,
@@ -29,6 +35,47 @@ pub struct Plan {
     #[serde(default)]
     pub phase_order: Option<crate::model::PhaseOrder>,
     pub tests: Vec<TestSpec>,
+}
+
+/// Project fields of a plan, each optional free text.
+#[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq, Default)]
+#[serde(deny_unknown_fields)]
+pub struct ProjectSpec {
+    /// Project name.
+    #[serde(default)]
+    pub name: Option<String>,
+    /// Who applies for the connection.
+    #[serde(default)]
+    pub applicant: Option<String>,
+    /// The network operator the evidence goes to.
+    #[serde(default)]
+    pub network_operator: Option<String>,
+    #[serde(default)]
+    pub test_campaign: Option<String>,
+    #[serde(default)]
+    pub report_revision: Option<String>,
+    #[serde(default)]
+    pub author: Option<String>,
+    #[serde(default)]
+    pub reviewer: Option<String>,
+}
+
+impl Plan {
+    /// The description and project fields for the results.
+    pub fn project_info(&self) -> Option<crate::rules::result::ProjectInfo> {
+        let p = self.project.clone().unwrap_or_default();
+        let info = crate::rules::result::ProjectInfo {
+            description: self.description.clone(),
+            project: p.name,
+            applicant: p.applicant,
+            network_operator: p.network_operator,
+            test_campaign: p.test_campaign,
+            report_revision: p.report_revision,
+            author: p.author,
+            reviewer: p.reviewer,
+        };
+        (info != Default::default()).then_some(info)
+    }
 }
 
 #[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
@@ -97,8 +144,11 @@ pub struct ChannelsSpec {
 #[derive(Clone, Debug, Deserialize, Serialize, JsonSchema, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct TestSpec {
+    /// Test id; with a pattern in `file`, the start of each test's id
+    /// (`<id>-<file stem>`).
     pub id: String,
-    /// Recording, relative to the plan.
+    /// Recording, relative to the plan; or a pattern (`recordings/*.cfg`)
+    /// that makes one test of every matching recording.
     pub file: String,
     /// Overrides of the plan's channel mapping, key by key.
     #[serde(default)]
@@ -266,6 +316,60 @@ pub struct LoadedPlan {
     pub tests: Vec<ResolvedTest>,
 }
 
+/// Whether a plan's `file` is a pattern (`*`, `?`, `[...]`).
+fn is_pattern(file: &str) -> bool {
+    file.contains(['*', '?', '['])
+}
+
+/// The recordings a test's `file` names, with their test ids: the file
+/// itself, or for a pattern every matching recording in path order, each
+/// test named `<id>-<file stem>` (`<id>-<file name>` where two share a
+/// stem). A COMTRADE `.dat` beside its `.cfg` is not a recording of its own.
+fn expand(dir: &Path, id: &str, file: &str) -> Result<Vec<(String, PathBuf)>, String> {
+    if !is_pattern(file) {
+        return Ok(vec![(id.to_string(), dir.join(file))]);
+    }
+    let pattern = dir.join(file);
+    let pattern = pattern.to_string_lossy();
+    let paths = glob::glob(&pattern).map_err(|e| {
+        format!("the pattern '{file}' is not valid ({e}); use *, ? and [abc] in file names")
+    })?;
+    let mut found: Vec<PathBuf> = paths
+        .filter_map(|p| p.ok())
+        .filter(|p| p.is_file() && crate::import::is_recording(p))
+        .filter(|p| {
+            let dat = p.extension().is_some_and(|e| e.eq_ignore_ascii_case("dat"));
+            !(dat && (p.with_extension("cfg").exists() || p.with_extension("CFG").exists()))
+        })
+        .collect();
+    found.sort();
+    if found.is_empty() {
+        return Err(format!(
+            "the pattern '{file}' matches no recording (relative to the plan's folder {}); check the folder and the extension",
+            if dir.as_os_str().is_empty() { Path::new(".") } else { dir }.display()
+        ));
+    }
+    let stem = |p: &Path| {
+        p.file_stem()
+            .map(|s| s.to_string_lossy().into_owned())
+            .unwrap_or_default()
+    };
+    Ok(found
+        .iter()
+        .map(|p| {
+            let shared = found.iter().filter(|q| stem(q) == stem(p)).count() > 1;
+            let name = if shared {
+                p.file_name()
+                    .map(|n| n.to_string_lossy().replace('.', "_"))
+                    .unwrap_or_default()
+            } else {
+                stem(p)
+            };
+            (format!("{id}-{name}"), p.clone())
+        })
+        .collect())
+}
+
 /// Loads and validates a plan; all problems are reported at once.
 pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
     let (text, sha256) = yaml::read_text_hashed(path, "test plan")?;
@@ -318,13 +422,22 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
     let mut tests = Vec::new();
     let mut seen = std::collections::HashSet::new();
     for (i, t) in plan.tests.iter().enumerate() {
-        if t.id.trim().is_empty() {
-            err(Some(i), "id", "test id is empty".into());
-        } else if !seen.insert(t.id.clone()) {
-            err(Some(i), "id", format!("test id '{}' is used twice", t.id));
-        }
         if t.file.trim().is_empty() {
             err(Some(i), "file", "file is empty".into());
+        }
+        let files = match expand(dir, &t.id, &t.file) {
+            Ok(f) => f,
+            Err(m) => {
+                err(Some(i), "file", m);
+                continue;
+            }
+        };
+        for (id, _) in &files {
+            if id.trim().is_empty() {
+                err(Some(i), "id", "test id is empty".into());
+            } else if !seen.insert(id.clone()) {
+                err(Some(i), "id", format!("test id '{id}' is used twice"));
+            }
         }
         if let Some(e) = &t.expect {
             for (key, m) in e.problems() {
@@ -347,17 +460,19 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
             }
         };
         match defaults.merged(t.channels.as_ref()).to_map() {
-            Ok(mut map) => tests.push(ResolvedTest {
-                map: {
-                    map.phase_order = t.phase_order.or(plan.phase_order);
-                    map
-                },
-                id: t.id.clone(),
-                file: dir.join(&t.file),
-                expect: t.expect.clone(),
-                rules,
-                description: t.description.clone(),
-            }),
+            Ok(mut map) => {
+                map.phase_order = t.phase_order.or(plan.phase_order);
+                for (id, file) in files {
+                    tests.push(ResolvedTest {
+                        map: map.clone(),
+                        id,
+                        file,
+                        expect: t.expect.clone(),
+                        rules,
+                        description: t.description.clone(),
+                    });
+                }
+            }
             Err((key, m)) => err(Some(i), key, m),
         }
     }

@@ -102,6 +102,26 @@ pub fn csv_cell(s: &str) -> Cow<'_, str> {
     }
 }
 
+/// Keeps letters, digits, '-' and '_' of an id for file names.
+pub fn file_safe(id: &str) -> String {
+    let s: String = id
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
+                c
+            } else {
+                '_'
+            }
+        })
+        .take(60)
+        .collect();
+    if s.is_empty() {
+        "test".into()
+    } else {
+        s
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

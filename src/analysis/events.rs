@@ -101,7 +101,7 @@ impl ApplicableVoltage {
 }
 
 /// Thresholds for disturbance and trip detection.
-#[derive(Clone, Copy, Debug, PartialEq, Serialize, schemars::JsonSchema)]
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize, schemars::JsonSchema)]
 pub struct DetectionSettings {
     pub applicable: ApplicableVoltage,
     pub below_pu: f64,

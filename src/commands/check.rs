@@ -108,6 +108,7 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
                 ratings: Some(lp.ratings),
                 frequency_hz: Some(lp.plan.unit.frequency_hz),
                 rules,
+                project: lp.plan.project_info(),
                 tests: lp.tests,
                 options,
             })
@@ -153,6 +154,7 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
                 rules,
                 tests,
                 options,
+                project: None,
             })
         }
     }
@@ -171,8 +173,9 @@ pub fn run(args: &CheckArgs) -> anyhow::Result<ExitStatus> {
             png: args.png,
         }),
     )?;
+    report::rule_sets::write(&pack, &job.rules)?;
     for r in report::REPORTERS {
-        pack.file(r.file_name(), &r.render(&run.results, &run.figures)?)?;
+        r.write(&run.results, &run.figures, &pack)?;
     }
     pack.commit()?;
     let stdout = std::io::stdout();

@@ -3,6 +3,7 @@
 
 pub mod check;
 pub mod inspect;
+pub mod plan_init;
 pub mod rules;
 pub mod synth;
 
@@ -44,6 +45,7 @@ pub fn run(cli: Cli) -> anyhow::Result<ExitStatus> {
                 writeln!(std::io::stdout().lock(), "{text}")?;
                 Ok(ExitStatus::Success)
             }
+            crate::cli::PlanCommand::Init(a) => plan_init::run(&a),
         },
     }
 }

@@ -63,26 +63,9 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<ExitStatus> {
             // moved into place, never over the rule set or through a link.
             let pack = crate::report::pack::PackWriter::begin(out, std::slice::from_ref(file))?;
             let mut written = Vec::new();
-            let r = &loaded.rules;
-            let drawings: Vec<(String, crate::rules::check::RuleDrawing)> = r
-                .checks
-                .iter()
-                .filter_map(|c| Some((c.id().to_string(), c.check().drawing(&r.id)?)))
-                .collect();
-            let name = r.applicable_voltage.name().replace('_', " ");
-            for (id, spec) in crate::report::figures::rule_figures(&r.id, &name, &drawings) {
-                let stem: String = id
-                    .chars()
-                    .map(|c| {
-                        if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
-                            c
-                        } else {
-                            '_'
-                        }
-                    })
-                    .collect();
+            for (stem, spec) in crate::report::figures::rule_set_figures(&loaded.rules) {
                 let (svg, _) = crate::report::plot::svg(&spec)
-                    .map_err(|e| anyhow::anyhow!("drawing {id}: {e}"))?;
+                    .map_err(|e| anyhow::anyhow!("drawing {stem}: {e}"))?;
                 pack.file(&format!("{stem}.svg"), svg.as_bytes())?;
                 let png_path = pack.dir().join(format!("{stem}.png"));
                 crate::report::plot::png(&spec, &png_path)

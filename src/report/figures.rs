@@ -4,7 +4,7 @@
 //! results and the overlays the checks hand over; nothing here knows a
 //! check type or decides a verdict.
 
-use super::plot::{self, FigureSpec, Mark, Shade, Trace, VLine};
+use super::plot::{self, Band, BandKind, FigureSpec, Mark, Shade, Trace, VLine};
 use crate::analysis::events::{Balance, Disturbance, TripInfo, TripMethod};
 use crate::analysis::{Quantity, Series};
 use crate::rules::check::{FigureKind, Overlay, RuleDrawing};
@@ -25,6 +25,9 @@ pub struct FigureInput<'a> {
     pub overlays: &'a [(&'a CheckResult, Overlay)],
     /// How far after a disturbance the requirements reach, s.
     pub extent_s: f64,
+    /// One nominal cycle, s: the phasor-transition window after each
+    /// waveform edge.
+    pub cycle_s: f64,
 }
 
 /// One figure of a test.
@@ -113,8 +116,33 @@ impl Frame<'_> {
             ..Default::default()
         }
     }
-    /// Disturbance start/end lines and the trip line.
+    /// Disturbance start/end lines, the trip line and the shaded windows:
+    /// momentary cessation, after the trip, phasor transitions.
     fn events(&self, f: &mut FigureSpec) {
+        let inp = self.inp;
+        for (a, b) in &inp.trip.cessations {
+            f.bands.push(Band {
+                from: *a,
+                to: *b,
+                kind: BandKind::Cessation,
+            });
+        }
+        if let (true, Some(tt)) = (inp.trip.tripped, inp.trip.time_s) {
+            f.bands.push(Band {
+                from: tt,
+                to: self.hi.max(tt),
+                kind: BandKind::Tripped,
+            });
+        }
+        for d in inp.disturbances {
+            for edge in [d.inception_s, d.clearance_s].into_iter().flatten() {
+                f.bands.push(Band {
+                    from: edge,
+                    to: edge + inp.cycle_s,
+                    kind: BandKind::Transition,
+                });
+            }
+        }
         f.vlines
             .extend(marks_for(self.inp.disturbances, None, self.hi));
         if let (true, Some(tt)) = (self.inp.trip.tripped, self.inp.trip.time_s) {
@@ -159,6 +187,16 @@ pub fn figures(inp: &FigureInput<'_>) -> Vec<Figure> {
         }
         _ => (t_first, t_last),
     };
+    // Every instant a result names is inside the window.
+    let instants = || {
+        inp.results
+            .iter()
+            .filter_map(|(c, _)| c.at_s)
+            .filter(|a| a.is_finite())
+    };
+    let pad = 0.05 * (hi - lo);
+    let lo = instants().fold(lo, |l, a| l.min((a - pad).max(t_first)));
+    let hi = instants().fold(hi, |h, a| h.max((a + pad).min(t_last)));
     let fr = Frame { inp, lo, hi };
     let mut out = vec![voltage_figure(&fr)];
     for negative in [false, true] {
@@ -238,6 +276,7 @@ fn voltage_figure(fr: &Frame<'_>) -> Figure {
             polygon: poly,
             color: plot::ZONE,
             opacity: 0.10,
+            label: Some("ride-through zone".into()),
         });
         if let (Some(at), Some(m)) = (c.at_s, c.margin) {
             let v = if c.unit == Unit::Pu {
@@ -270,12 +309,6 @@ fn voltage_figure(fr: &Frame<'_>) -> Figure {
         }
     }
     fr.events(&mut f);
-    f.spans = inp
-        .trip
-        .cessations
-        .iter()
-        .map(|(a, b)| (*a, *b, "cessation".to_string()))
-        .collect();
     f.title = format!("{} – voltage – {}", inp.test_id, verdicts(&zone));
     Figure {
         quantity: "voltage",
@@ -345,25 +378,26 @@ fn reactive_figure(fr: &Frame<'_>, negative: bool) -> Option<Figure> {
             ys.extend([*l, *h]);
             f.shades.push(Shade {
                 polygon: vec![(*a, *l), (*b, *l), (*b, *h), (*a, *h)],
-                color: plot::MARK,
-                opacity: 0.18,
+                color: plot::BAND,
+                opacity: 0.25,
+                label: Some("tolerance band".into()),
             });
         }
         if let Some((at, level, rise)) = rise {
             f.marks.push(Mark {
                 t: *at,
                 v: *level,
-                label: format!("90 % after {:.1} ms", rise * 1e3),
+                label: format!("90 % after {:.4} s", rise),
             });
         }
         f.vlines.push(VLine {
             t: *rise_limit_at,
-            label: format!("rise limit {:.0} ms", rise_limit_s * 1e3),
+            label: format!("rise limit {:.3} s", rise_limit_s),
         });
         if let Some((at, st)) = settled_at {
             f.vlines.push(VLine {
                 t: *at,
-                label: format!("settled {:.1} ms", st * 1e3),
+                label: format!("settled {:.4} s", st),
             });
         }
     }
@@ -417,7 +451,7 @@ fn power_figure(fr: &Frame<'_>) -> Option<Figure> {
             f.marks.push(Mark {
                 t: *at,
                 v: value_at(inp.series, p, *at),
-                label: format!("reached after {:.1} ms", m * 1e3),
+                label: format!("reached after {:.4} s", m),
             });
         }
     }
@@ -428,6 +462,29 @@ fn power_figure(fr: &Frame<'_>) -> Option<Figure> {
         quantity: "active_power",
         spec: f,
     })
+}
+
+/// The figures of a rule set with a file-name stem each (`rules plot`,
+/// and the rule-set figures of an evidence pack).
+pub fn rule_set_figures(r: &crate::rules::spec::RuleSet) -> Vec<(String, FigureSpec)> {
+    rule_set_figures_of(&r.id, r.applicable_voltage, &r.checks)
+}
+
+/// [`rule_set_figures`] from the parts of a rule set (as results keep them).
+pub fn rule_set_figures_of(
+    id: &str,
+    applicable: crate::analysis::events::ApplicableVoltage,
+    checks: &[crate::rules::spec::CheckSpec],
+) -> Vec<(String, FigureSpec)> {
+    let drawings: Vec<(String, RuleDrawing)> = checks
+        .iter()
+        .filter_map(|c| Some((c.id().to_string(), c.check().drawing(id)?)))
+        .collect();
+    let name = applicable.name().replace('_', " ");
+    rule_figures(id, &name, &drawings)
+        .into_iter()
+        .map(|(id, spec)| (crate::text::file_safe(&id), spec))
+        .collect()
 }
 
 /// Figures of a rule set itself (`rules plot`): each zone boundary
@@ -471,6 +528,7 @@ pub fn rule_figures(
                         polygon: poly,
                         color: plot::ZONE,
                         opacity: 0.15,
+                        label: Some("ride-through zone".into()),
                     }],
                     traces: vec![Trace {
                         label: format!("{id} boundary (shaded: ride-through zone)"),
@@ -509,8 +567,9 @@ pub fn rule_figures(
                     y_range: (y0, y1),
                     shades: vec![Shade {
                         polygon: band.clone(),
-                        color: plot::MARK,
-                        opacity: 0.18,
+                        color: plot::BAND,
+                        opacity: 0.25,
+                        label: Some("tolerance band".into()),
                     }],
                     traces: vec![Trace {
                         label: format!("required ΔIq{seq} (band: tolerance {lo:+}/{hi:+} pu)"),

@@ -5,12 +5,15 @@ pub mod figures;
 pub mod html;
 pub mod pack;
 pub mod plot;
+pub mod rule_sets;
 pub mod summary_csv;
 pub mod table;
+pub mod tests_csv;
 
 use crate::rules::registry::Unit;
 use crate::rules::result::Results;
 use anyhow::Context;
+use pack::PackWriter;
 
 /// Formats a value of `unit` for people (pu to 3 decimals, seconds to ms).
 pub fn fmt_value(v: Option<f64>, unit: Unit) -> String {
@@ -18,7 +21,7 @@ pub fn fmt_value(v: Option<f64>, unit: Unit) -> String {
         None => "–".into(),
         Some(x) if !x.is_finite() => "–".into(),
         Some(x) => match unit {
-            Unit::S => format!("{:.1} ms", x * 1e3),
+            Unit::S => format!("{x:.4} s"),
             Unit::Pu => format!("{x:.3} pu"),
         },
     }
@@ -27,48 +30,79 @@ pub fn fmt_value(v: Option<f64>, unit: Unit) -> String {
 /// The figures of a run, by test id.
 pub type FigureSet = std::collections::BTreeMap<String, Vec<html::RenderedFigure>>;
 
-/// A file of the evidence pack, rendered from the results and figures
-/// (and computing nothing itself). Add a report format by adding one here.
+/// Files of the evidence pack, rendered from the results and figures
+/// (and computing nothing themselves). Add a report format by adding one
+/// here and to [`REPORTERS`].
 pub trait Reporter: Sync {
+    /// The file, or the first of the files, it writes.
     fn file_name(&self) -> &'static str;
-    fn render(&self, results: &Results, figures: &FigureSet) -> anyhow::Result<Vec<u8>>;
+    /// Writes its files into the pack.
+    fn write(
+        &self,
+        results: &Results,
+        figures: &FigureSet,
+        pack: &PackWriter,
+    ) -> anyhow::Result<()>;
+}
+
+/// A reporter of one file rendered whole.
+trait OneFile: Sync {
+    const NAME: &'static str;
+    fn render(results: &Results) -> anyhow::Result<Vec<u8>>;
+}
+
+impl<T: OneFile> Reporter for T {
+    fn file_name(&self) -> &'static str {
+        T::NAME
+    }
+    fn write(&self, results: &Results, _: &FigureSet, pack: &PackWriter) -> anyhow::Result<()> {
+        pack.file(T::NAME, &T::render(results)?)
+    }
 }
 
 struct Json;
 struct SummaryCsv;
+struct TestsCsv;
 struct Html;
 
-impl Reporter for Json {
-    fn file_name(&self) -> &'static str {
-        "results.json"
-    }
-    fn render(&self, results: &Results, _: &FigureSet) -> anyhow::Result<Vec<u8>> {
+impl OneFile for Json {
+    const NAME: &'static str = "results.json";
+    fn render(results: &Results) -> anyhow::Result<Vec<u8>> {
         json(results)
     }
 }
 
-impl Reporter for SummaryCsv {
-    fn file_name(&self) -> &'static str {
-        "summary.csv"
-    }
-    fn render(&self, results: &Results, _: &FigureSet) -> anyhow::Result<Vec<u8>> {
+impl OneFile for SummaryCsv {
+    const NAME: &'static str = "summary.csv";
+    fn render(results: &Results) -> anyhow::Result<Vec<u8>> {
         summary_csv::render(results)
     }
 }
 
+impl OneFile for TestsCsv {
+    const NAME: &'static str = "tests.csv";
+    fn render(results: &Results) -> anyhow::Result<Vec<u8>> {
+        tests_csv::render(results)
+    }
+}
+
+/// `index.html`, `report.html` and `tests/*.html`.
 impl Reporter for Html {
     fn file_name(&self) -> &'static str {
-        "report.html"
+        "index.html"
     }
-    fn render(&self, results: &Results, figures: &FigureSet) -> anyhow::Result<Vec<u8>> {
-        Ok(html::render(results, figures)
-            .context("rendering report.html")?
-            .into_bytes())
+    fn write(
+        &self,
+        results: &Results,
+        figures: &FigureSet,
+        pack: &PackWriter,
+    ) -> anyhow::Result<()> {
+        html::write_pages(results, figures, pack)
     }
 }
 
 /// The files of an evidence pack, in the order they are written.
-pub const REPORTERS: [&dyn Reporter; 3] = [&Json, &SummaryCsv, &Html];
+pub const REPORTERS: [&dyn Reporter; 4] = [&Json, &SummaryCsv, &TestsCsv, &Html];
 
 /// `results.json`.
 pub fn json(results: &Results) -> anyhow::Result<Vec<u8>> {

@@ -234,6 +234,20 @@ impl PackWriter {
         Ok(())
     }
 
+    /// Creates a new file in the pack to be written piece by piece.
+    pub fn create(&self, rel: &str) -> anyhow::Result<PackFile> {
+        let path = self.tmp.join(rel);
+        let f = OpenOptions::new()
+            .write(true)
+            .create_new(true)
+            .open(&path)
+            .with_context(|| format!("creating {}", path.display()))?;
+        Ok(PackFile {
+            out: std::io::BufWriter::new(f),
+            path,
+        })
+    }
+
     /// Moves the complete pack into place, replacing an earlier one whole.
     pub fn commit(mut self) -> anyhow::Result<()> {
         let old = sibling(&self.out, &format!("old-{}", std::process::id()));
@@ -262,5 +276,34 @@ impl Drop for PackWriter {
             let _ = fs::remove_dir_all(&self.tmp);
         }
         let _ = fs::remove_file(&self.lock);
+    }
+}
+
+/// A pack file written piece by piece ([`PackWriter::create`]).
+pub struct PackFile {
+    out: std::io::BufWriter<fs::File>,
+    path: PathBuf,
+}
+
+impl Write for PackFile {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        self.out.write(buf)
+    }
+    fn flush(&mut self) -> std::io::Result<()> {
+        self.out.flush()
+    }
+}
+
+impl PackFile {
+    /// Flushes and syncs the file; a write error names it.
+    pub fn finish(self) -> anyhow::Result<()> {
+        let path = self.path;
+        let f = self
+            .out
+            .into_inner()
+            .map_err(|e| e.into_error())
+            .with_context(|| format!("writing {}", path.display()))?;
+        f.sync_all()
+            .with_context(|| format!("writing {}", path.display()))
     }
 }

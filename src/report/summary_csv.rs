@@ -5,7 +5,7 @@ use crate::text;
 use anyhow::Context;
 
 /// Columns; later versions add columns at the end only.
-pub const HEADER: [&str; 15] = [
+pub const HEADER: [&str; 16] = [
     "test",
     "recording",
     "test_verdict",
@@ -21,6 +21,7 @@ pub const HEADER: [&str; 15] = [
     "settling_time_s",
     "detail",
     "reason",
+    "rule_set",
 ];
 
 /// `summary.csv`: text cells are neutralised for spreadsheets
@@ -33,7 +34,9 @@ pub fn render(results: &Results) -> anyhow::Result<Vec<u8>> {
             .map(|x| format!("{x}"))
             .unwrap_or_default()
     };
+    let plan_rules = results.rules.id.clone().unwrap_or_default();
     for t in &results.tests {
+        let rule_set = text::csv_cell(t.rule_set.as_deref().unwrap_or(&plan_rules));
         for c in &t.checks {
             w.write_record([
                 &*text::csv_cell(&t.id),
@@ -51,6 +54,7 @@ pub fn render(results: &Results) -> anyhow::Result<Vec<u8>> {
                 &num(c.settling_time_s),
                 &*text::csv_cell(&c.detail),
                 c.reason.map(|r| r.name()).unwrap_or(""),
+                &rule_set,
             ])?;
         }
     }

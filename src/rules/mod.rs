@@ -36,6 +36,8 @@ pub struct LoadedRules {
     pub sha256: String,
     /// Parameter values used for this run.
     pub parameters: Vec<params::Resolved>,
+    /// The text as read (the evidence pack keeps a copy).
+    pub text: String,
 }
 
 /// Loads and validates a rule set with its default parameter values.
@@ -157,6 +159,7 @@ fn load_text_with(
         parameters: resolved,
         path: path.to_path_buf(),
         sha256,
+        text: raw.to_string(),
     })
 }
 

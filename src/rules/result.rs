@@ -231,6 +231,16 @@ pub struct CheckResult {
 }
 
 impl CheckResult {
+    /// The margin as a fraction of the limit (the margin itself where the
+    /// limit is zero or missing).
+    pub fn relative_margin(&self) -> Option<f64> {
+        let m = self.margin.filter(|m| m.is_finite())?;
+        Some(match self.limit.filter(|l| l.is_finite() && *l != 0.0) {
+            Some(l) => m / l.abs(),
+            None => m,
+        })
+    }
+
     pub fn new(id: &str, check_type: CheckKind, disturbance: Option<usize>, unit: Unit) -> Self {
         CheckResult {
             id: id.to_string(),
@@ -389,6 +399,14 @@ pub struct TestResult {
     pub parameters: std::collections::BTreeMap<String, f64>,
     #[serde(default)]
     pub notes: Vec<String>,
+    /// Id of the rule set this test was judged by.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rule_set: Option<String>,
+    /// The plan's description of this test.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub description: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub analysis: Option<TestAnalysis>,
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
@@ -407,6 +425,143 @@ pub struct FileRef {
 pub struct Tool {
     pub name: String,
     pub version: String,
+    /// The source commit the tool was built from, where the build knew it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub commit: Option<String>,
+}
+
+/// Who and what the evidence is for: the plan's description and project
+/// fields, as the plan states them.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct ProjectInfo {
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub description: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub project: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub applicant: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub network_operator: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub test_campaign: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub report_revision: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub author: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reviewer: Option<String>,
+}
+
+impl ProjectInfo {
+    /// The fields that are given, with their labels, in a fixed order.
+    pub fn rows(&self) -> Vec<(&'static str, &str)> {
+        [
+            ("Project", &self.project),
+            ("Applicant", &self.applicant),
+            ("Network operator", &self.network_operator),
+            ("Test campaign", &self.test_campaign),
+            ("Report revision", &self.report_revision),
+            ("Author", &self.author),
+            ("Reviewer", &self.reviewer),
+            ("Description", &self.description),
+        ]
+        .into_iter()
+        .filter_map(|(k, v)| v.as_deref().map(|v| (k, v)))
+        .collect()
+    }
+}
+
+/// The unit's ratings and the per-unit bases derived from them.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct RatingsReport {
+    /// Rated line-to-line RMS voltage `Un`, kV.
+    pub rated_voltage_kv: f64,
+    /// Rated apparent power `Sn`, MVA (also the power base).
+    pub rated_power_mva: f64,
+    /// Nominal frequency, Hz; null when each recording's own is used.
+    #[schemars(with = "Nullable<f64>")]
+    pub frequency_hz: Option<f64>,
+    /// Phase-to-neutral voltage base `Un/√3`, V.
+    pub voltage_base_phase_to_neutral_v: f64,
+    /// Phase-to-phase voltage base `Un`, V.
+    pub voltage_base_phase_to_phase_v: f64,
+    /// Current base `Sn/(√3·Un)`, A.
+    pub current_base_a: f64,
+    /// Power base `Sn`, MW / Mvar / MVA.
+    pub power_base_mva: f64,
+}
+
+impl RatingsReport {
+    pub fn new(r: &crate::model::Ratings, frequency_hz: Option<f64>) -> Self {
+        RatingsReport {
+            rated_voltage_kv: r.rated_kv,
+            rated_power_mva: r.rated_mva,
+            frequency_hz,
+            voltage_base_phase_to_neutral_v: r.voltage_base_phase_v(),
+            voltage_base_phase_to_phase_v: r.voltage_base_line_v(),
+            current_base_a: r.current_base_a(),
+            power_base_mva: r.rated_mva,
+        }
+    }
+}
+
+/// A parameter of a rule set with the value this run used.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct AppliedParameter {
+    pub name: String,
+    pub value: f64,
+    pub unit: String,
+    /// The published range the value was checked against.
+    pub range: [f64; 2],
+    /// `default`, `plan` or `--set`.
+    pub origin: String,
+    #[serde(default, skip_serializing_if = "String::is_empty")]
+    pub description: String,
+}
+
+/// A rule set as this run applied it: its parameters resolved, its
+/// detection thresholds and every requirement with the values used, and
+/// where the pack keeps a copy of its text and its figures.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct AppliedRuleSet {
+    pub id: String,
+    pub title: String,
+    /// Which published document, edition and clause the numbers follow.
+    pub source: String,
+    pub path: String,
+    pub sha256: String,
+    /// The rule set's text as read, inside the pack.
+    pub copy: String,
+    /// Its requirement figures (`rules plot`), inside the pack.
+    #[serde(default)]
+    pub figures: Vec<String>,
+    pub parameters: Vec<AppliedParameter>,
+    pub applicable_voltage: crate::analysis::events::ApplicableVoltage,
+    pub disturbance: super::spec::DisturbanceSpec,
+    /// Each requirement with the parameter values put in.
+    pub checks: Vec<super::spec::CheckSpec>,
+}
+
+/// How the recordings were analysed (the same for every test).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct AnalysisReport {
+    /// The phasor method in words.
+    pub method: String,
+    /// Window length in nominal cycles.
+    pub window_cycles: u32,
+    /// Points per nominal cycle kept from waveform recordings.
+    pub points_per_cycle: usize,
+}
+
+/// The settings one test was analysed with.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct TestAnalysis {
+    /// Nominal frequency used, Hz.
+    pub frequency_hz: f64,
+    /// Phasor window, s (one nominal cycle).
+    pub window_s: f64,
+    /// Disturbance and trip detection thresholds.
+    pub detection: crate::analysis::events::DetectionSettings,
 }
 
 /// `results.json`, schema version 1.
@@ -430,6 +585,56 @@ pub struct Results {
     pub command_line: Option<String>,
     #[serde(default)]
     pub caution: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub project: Option<ProjectInfo>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub ratings: Option<RatingsReport>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub analysis: Option<AnalysisReport>,
+    /// Every rule set of the run as applied (the plan's first).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub rule_sets: Vec<AppliedRuleSet>,
+}
+
+impl TestResult {
+    /// The check that decides the test's verdict most: the worst verdict
+    /// (fail, then inconclusive, then pass), among those the smallest
+    /// margin relative to its limit (so that seconds and per unit compare;
+    /// a check without a margin after those with one), then the first in
+    /// the rule set. Not-applicable checks are never worst, nor is a
+    /// passing test-realisation check (it judges the test, not the unit).
+    pub fn worst_check(&self) -> Option<&CheckResult> {
+        let rank = |v: Verdict| match v {
+            Verdict::Fail => 0,
+            Verdict::Inconclusive => 1,
+            Verdict::Pass => 2,
+            Verdict::NotApplicable => 3,
+        };
+        self.checks
+            .iter()
+            .filter(|c| c.verdict != Verdict::NotApplicable)
+            .filter(|c| !(c.verdict == Verdict::Pass && c.check_type == CheckKind::TestRealisation))
+            .min_by(|a, b| {
+                rank(a.verdict).cmp(&rank(b.verdict)).then_with(|| {
+                    match (a.relative_margin(), b.relative_margin()) {
+                        (Some(x), Some(y)) => x.total_cmp(&y),
+                        (Some(_), None) => std::cmp::Ordering::Less,
+                        (None, Some(_)) => std::cmp::Ordering::Greater,
+                        (None, None) => std::cmp::Ordering::Equal,
+                    }
+                })
+            })
+    }
+
+    /// The disturbance furthest from 1 pu (the one a test is named by).
+    pub fn main_disturbance(&self) -> Option<(usize, &DisturbanceResult)> {
+        self.disturbances.iter().enumerate().max_by(|a, b| {
+            (a.1.extreme_pu - 1.0)
+                .abs()
+                .total_cmp(&(b.1.extreme_pu - 1.0).abs())
+                .then(b.0.cmp(&a.0))
+        })
+    }
 }
 
 impl Results {

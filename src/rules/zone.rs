@@ -604,9 +604,9 @@ pub fn zone_verdict(
         return judge(r, scan, conn, timing, cessation);
     };
     let smear = format!(
-        "the disturbance lasted {:.1} ms at phasor level (less than two nominal cycles, {:.1} ms), too short for one-cycle phasors to show its depth",
-        d * 1e3,
-        2.0 * timing.cycle_s * 1e3
+        "the disturbance lasted {:.4} s at phasor level (less than two nominal cycles, {:.4} s), too short for one-cycle phasors to show its depth",
+        d,
+        2.0 * timing.cycle_s
     );
     let measured = judge(r.clone(), scan, conn, timing, cessation);
     if conn.trip_s.is_none() {

@@ -518,7 +518,7 @@ fn gain_and_realisation_read_what_the_unit_did() {
     );
     // summary.csv carries the reason column.
     let csv = std::fs::read_to_string(pack.join("summary.csv")).unwrap();
-    assert!(csv.lines().next().unwrap().ends_with(",reason"));
+    assert!(csv.lines().next().unwrap().ends_with(",reason,rule_set"));
     assert!(csv.contains(",as_planned"), "{csv}");
 }
 

@@ -335,7 +335,11 @@ fn sample_margins_agree_with_the_verdicts() {
         .map(|t| t["checks"].as_array().unwrap().len())
         .sum();
     assert_eq!(summary.lines().count(), rows + 1);
-    assert!(summary.lines().next().unwrap().ends_with(",reason"));
+    assert!(summary
+        .lines()
+        .next()
+        .unwrap()
+        .ends_with(",reason,rule_set"));
     assert!(summary.contains(",trip_inside_zone"));
     // Traceability: hashes of plan, rule set and recordings.
     assert_eq!(results["plan"]["sha256"].as_str().unwrap().len(), 64);

@@ -246,6 +246,46 @@ fn browser() -> Option<PathBuf> {
     None
 }
 
+/// A screenshot of a page beside it; fails on any console message or
+/// resource the page could not load.
+fn screenshot(chrome: &Path, page: &Path, size: &str) -> PathBuf {
+    let shot = page.with_extension("screenshot.png");
+    let out = std::process::Command::new(chrome)
+        .args([
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--no-first-run",
+            "--enable-logging=stderr",
+            "--v=0",
+            "--virtual-time-budget=3000",
+        ])
+        .arg(format!("--window-size={size}"))
+        .arg(format!("--screenshot={}", shot.display()))
+        .arg(format!("file://{}", page.display()))
+        .output()
+        .unwrap();
+    let log = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        shot.exists(),
+        "{}: no screenshot; browser said:\n{log}",
+        page.display()
+    );
+    for line in log.lines() {
+        assert!(
+            !line.contains(":CONSOLE"),
+            "{}: console message: {line}",
+            page.display()
+        );
+        assert!(
+            !line.contains("Failed to load resource"),
+            "{}: {line}",
+            page.display()
+        );
+    }
+    shot
+}
+
 #[test]
 fn report_renders_in_a_headless_browser() {
     let Some(chrome) = browser() else {
@@ -256,29 +296,7 @@ fn report_renders_in_a_headless_browser() {
         return;
     };
     let dir = &sample_run().dir;
-    let shot = dir.path().join("screenshot.png");
-    let url = format!("file://{}", dir.path().join("report.html").display());
-    let out = std::process::Command::new(chrome)
-        .args([
-            "--headless",
-            "--no-sandbox",
-            "--disable-gpu",
-            "--no-first-run",
-            "--enable-logging=stderr",
-            "--v=0",
-            "--window-size=1200,1800",
-            "--virtual-time-budget=3000",
-        ])
-        .arg(format!("--screenshot={}", shot.display()))
-        .arg(&url)
-        .output()
-        .unwrap();
-    let log = String::from_utf8_lossy(&out.stderr);
-    assert!(shot.exists(), "no screenshot; browser said:\n{log}");
-    for line in log.lines() {
-        assert!(!line.contains(":CONSOLE"), "console message: {line}");
-        assert!(!line.contains("Failed to load resource"), "{line}");
-    }
+    let shot = screenshot(&chrome, &dir.path().join("report.html"), "1200,1800");
     let img = image::open(&shot).unwrap().to_rgb8();
     let (w, h) = img.dimensions();
     assert!(w >= 800 && h >= 800);
@@ -299,35 +317,58 @@ fn report_renders_in_a_headless_browser() {
         dark > 1000,
         "hardly any text or lines drawn ({dark} dark pixels)"
     );
-    // Printed (A4 by the page's CSS): each test on one page, plus the
-    // overview and the traceability block.
+    // The index and a test page load without errors too.
+    for page in ["index.html", "tests/004-T04.html"] {
+        screenshot(&chrome, &dir.path().join(page), "1200,1600");
+    }
+    // Printed on Letter (the browser's default; the page sets no size) and
+    // on A4 (a copy that asks for it): every test starts a page and takes
+    // at most three (its tables and up to four figures across the page).
     let run = sample_run();
     let (dir, results) = (&run.dir, &run.results);
-    let pdf = dir.path().join("report.pdf");
-    let printed = std::process::Command::new(browser().unwrap())
-        .args([
-            "--headless",
-            "--no-sandbox",
-            "--disable-gpu",
-            "--no-pdf-header-footer",
-        ])
-        .arg(format!("--print-to-pdf={}", pdf.display()))
-        .arg(&url)
-        .output()
-        .unwrap();
-    assert!(
-        pdf.exists(),
-        "no PDF: {}",
-        String::from_utf8_lossy(&printed.stderr)
-    );
-    let bytes = std::fs::read(&pdf).unwrap();
-    let text = String::from_utf8_lossy(&bytes);
-    let pages = text.matches("/Type /Page").count() - text.matches("/Type /Pages").count();
+    let html = std::fs::read_to_string(dir.path().join("report.html")).unwrap();
+    let a4 = dir.path().join("report-a4.html");
+    std::fs::write(
+        &a4,
+        html.replacen("</head>", "<style>@page { size: A4; }</style></head>", 1),
+    )
+    .unwrap();
     let tests = results["tests"].as_array().unwrap().len();
-    assert!(
-        pages >= tests && pages <= tests + 3,
-        "{pages} printed pages for {tests} tests"
-    );
+    for (paper, file) in [("Letter", dir.path().join("report.html")), ("A4", a4)] {
+        let pdf = dir.path().join(format!("report-{paper}.pdf"));
+        let printed = std::process::Command::new(&chrome)
+            .args([
+                "--headless",
+                "--no-sandbox",
+                "--disable-gpu",
+                "--no-pdf-header-footer",
+            ])
+            .arg(format!("--print-to-pdf={}", pdf.display()))
+            .arg(format!("file://{}", file.display()))
+            .output()
+            .unwrap();
+        assert!(
+            pdf.exists(),
+            "no PDF: {}",
+            String::from_utf8_lossy(&printed.stderr)
+        );
+        let bytes = std::fs::read(&pdf).unwrap();
+        let text = String::from_utf8_lossy(&bytes);
+        let pages = text.matches("/Type /Page").count() - text.matches("/Type /Pages").count();
+        // The opening pages (requirements with their figures) and the
+        // traceability block take a few more.
+        assert!(
+            pages > tests && pages <= 3 * tests + 8,
+            "{paper}: {pages} printed pages for {tests} tests"
+        );
+        // The page size in the PDF: Letter 612 × 792 pt, A4 595 × 842 pt
+        // (written 594.96 × 841.92).
+        let want = if paper == "A4" { "594.9" } else { "612 " };
+        assert!(
+            text.contains(&format!("/MediaBox [0 0 {want}")),
+            "{paper}: page size"
+        );
+    }
 }
 
 #[test]

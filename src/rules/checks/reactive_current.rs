@@ -423,9 +423,9 @@ fn too_short(spec: &ReactiveCurrentSpec, inp: &ReactiveInput<'_>, t_ref: f64) ->
     }
     (duration < spec.rise_time_s).then(|| {
         format!(
-            "the disturbance lasted {:.1} ms, shorter than the required rise time {:.1} ms: the data cannot decide",
-            duration * 1e3,
-            spec.rise_time_s * 1e3
+            "the disturbance lasted {:.4} s, shorter than the required rise time {:.3} s: the data cannot decide",
+            duration,
+            spec.rise_time_s
         )
     })
 }
@@ -477,8 +477,8 @@ fn segments(
         let Some(vm) = mean_between(inp.t, inp.v, win.0, win.1) else {
             if j == 0 {
                 return Err(format!(
-                    "no settled part of the fault ({:.1} ms long) to take the voltage from",
-                    (inp.end_s - inp.start_s) * 1e3
+                    "no settled part of the fault ({:.4} s long) to take the voltage from",
+                    (inp.end_s - inp.start_s)
                 ));
             }
             continue;
@@ -734,7 +734,7 @@ fn settle_text(spec: &ReactiveCurrentSpec, seg_results: &[Segment], segs: &[Seg]
         .iter()
         .zip(segs)
         .map(|(s, g)| match s.settling_time_s {
-            Some(st) => format!("settling into {} pu after {:.1} ms", band(g.req), st * 1e3),
+            Some(st) => format!("settling into {} pu after {:.4} s", band(g.req), st),
             None => format!(
                 "ΔIq{sub} did not stay inside {} pu before {:.3} s",
                 band(g.req),
@@ -901,9 +901,9 @@ fn conclude(
     };
     let rise_ok = rise_v <= spec.rise_time_s;
     let rise_txt = format!(
-        "rise time {:.1} ms (limit {:.1} ms)",
-        rise_v * 1e3,
-        spec.rise_time_s * 1e3
+        "rise time {:.4} s (limit {:.3} s)",
+        rise_v,
+        spec.rise_time_s
     );
     if !span.full {
         let (v, reason) = if rise_ok {
@@ -915,8 +915,8 @@ fn conclude(
             v,
             reason,
             format!(
-                "{what}: {rise_txt}; the fault was too short for the settling time of {:.1} ms to be judged{measured_txt}",
-                spec.settling_time_s * 1e3
+                "{what}: {rise_txt}; the fault was too short for the settling time of {:.3} s to be judged{measured_txt}",
+                spec.settling_time_s
             ),
         );
     }
@@ -938,8 +938,8 @@ fn conclude(
         v,
         reason,
         format!(
-            "{what}: {rise_txt}, {settle_txt} (settling limit {:.1} ms){measured_txt}",
-            spec.settling_time_s * 1e3
+            "{what}: {rise_txt}, {settle_txt} (settling limit {:.3} s){measured_txt}",
+            spec.settling_time_s
         ),
     )
 }
