@@ -24,4 +24,4 @@ s --out $d/t12-cessation.csv          --duration 2.5 --residual 0.3 --fault-dura
 s --out $d/t13-table-trip.csv         --duration 2.5 --residual 0.6 --fault-duration 0.3 --trip-at 0.7 --status
 # COMTRADE (IEEE C37.111-2013 single-file .cff, 16-bit binary data, secondary values
 # with a breaker status channel): a single-phase dip with negative-sequence support.
-s --out $d/t14-comtrade-single-phase.cff --duration 2.5 --residuals 0.25,1.0,1.0 --fault-duration 0.2 --k2-gain 2 --status --comtrade-type binary --revision 2013
+s --out $d/t14-comtrade-single-phase.cff --duration 2.5 --residuals 0.25,1.0,1.0 --fault-duration 0.2 --k2-gain 2 --status --comtrade-type binary --revision 2013 --station "SALTMARSH RIDGE" --device "SR07 RECORDER"

@@ -36,6 +36,23 @@ pub enum Command {
     Rules(RulesArgs),
     /// Work with test plans.
     Plan(PlanArgs),
+    /// Print a shell completion script (bash, zsh, fish, elvish, powershell).
+    #[command(
+        after_help = "For bash: holdfast completions bash > ~/.local/share/bash-completion/completions/holdfast"
+    )]
+    Completions {
+        /// The shell.
+        shell: clap_complete::Shell,
+    },
+    /// Write man pages (holdfast.1 and one per subcommand) into a folder.
+    #[command(
+        after_help = "Then: man -l DIR/holdfast.1, or copy the pages to a man1 folder on MANPATH."
+    )]
+    Man {
+        /// Folder for the pages (created if missing).
+        #[arg(short, long, value_name = "DIR")]
+        out: PathBuf,
+    },
 }
 
 #[derive(Args, Debug)]
@@ -81,7 +98,7 @@ pub struct CheckArgs {
     /// Rule set for a one-off check of the recordings given (no plan file).
     #[arg(long, value_name = "RULES.yaml")]
     pub rules: Option<PathBuf>,
-    /// Directory for the evidence pack (results.json, summary.csv, ...).
+    /// Directory for the evidence pack (index.html, report.html, results.json, tests.csv, summary.csv, rules/, plots/).
     #[arg(long, default_value = "holdfast-report", value_name = "DIR")]
     pub out: PathBuf,
     /// Also write each figure as PNG beside its SVG (for word processors;
@@ -464,6 +481,12 @@ pub struct SynthArgs {
     /// Add a status column (1 connected, 0 tripped).
     #[arg(long)]
     pub status: bool,
+    /// COMTRADE station name (no commas).
+    #[arg(long, default_value = crate::synth::DEFAULT_STATION)]
+    pub station: String,
+    /// COMTRADE recording device id (no commas).
+    #[arg(long, default_value = crate::synth::DEFAULT_DEVICE)]
+    pub device: String,
 }
 
 /// Parses `--set NAME=VALUE` flags.

@@ -122,6 +122,48 @@ pub fn file_safe(id: &str) -> String {
     }
 }
 
+/// For a deserialiser's "unknown field `x`, expected one of `a`, `b`"
+/// (or "unknown variant ..."), the expected name closest to the unknown one,
+/// when it is close enough to be a misspelling (normalised Damerau–Levenshtein
+/// similarity of at least 0.6, or one is the other with a part missing).
+pub fn did_you_mean(msg: &str) -> Option<String> {
+    let after = |m: &str, start: &str| -> Option<String> {
+        let i = m.find(start)? + start.len();
+        let rest = &m[i..];
+        Some(rest[..rest.find('`')?].to_string())
+    };
+    let unknown = after(msg, "unknown field `").or_else(|| after(msg, "unknown variant `"))?;
+    let list = &msg[msg.find("expected ")? + "expected ".len()..];
+    let list = list.strip_prefix("one of ").unwrap_or(list);
+    let names: Vec<&str> = list
+        .split(',')
+        .map(|n| n.trim().trim_matches('`').trim())
+        .filter(|n| !n.is_empty() && !n.contains(' '))
+        .collect();
+    let lower = unknown.to_ascii_lowercase();
+    names
+        .iter()
+        .map(|n| {
+            let l = n.to_ascii_lowercase();
+            let mut score = strsim::normalized_damerau_levenshtein(&lower, &l);
+            if l.len() >= 3 && lower.len() >= 3 && (lower.contains(&l) || l.contains(&lower)) {
+                score = score.max(0.6);
+            }
+            (score, *n)
+        })
+        .filter(|(score, n)| *score >= 0.6 && *n != unknown)
+        .max_by(|a, b| a.0.total_cmp(&b.0))
+        .map(|(_, n)| n.to_string())
+}
+
+/// `msg` with "; did you mean `x`?" when [`did_you_mean`] finds one.
+pub fn with_suggestion(msg: String) -> String {
+    match did_you_mean(&msg) {
+        Some(s) => format!("{msg}; did you mean `{s}`?"),
+        None => msg,
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -150,5 +192,20 @@ mod tests {
         assert!(s.len() < 120, "{s}");
         assert!(s.contains("…"));
         assert_eq!(shorten_quotes("'short' stays", 40), "'short' stays");
+    }
+
+    #[test]
+    fn suggests_the_closest_expected_name() {
+        let m = "unknown field `pionts`, expected one of `id`, `bound`, `points`, `momentary_cessation`";
+        assert_eq!(did_you_mean(m).as_deref(), Some("points"));
+        let m = "unknown variant `envelop`, expected one of `envelope`, `duration_table`";
+        assert_eq!(did_you_mean(m).as_deref(), Some("envelope"));
+        let m =
+            "unknown field `rulez`, expected one of description, project, unit, rules, channels";
+        assert_eq!(did_you_mean(m).as_deref(), Some("rules"));
+        // Nothing alike: no guess.
+        let m = "unknown field `xyz`, expected one of `id`, `bound`, `points`";
+        assert_eq!(did_you_mean(m), None);
+        assert_eq!(did_you_mean("missing field `points`"), None);
     }
 }

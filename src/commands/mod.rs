@@ -31,6 +31,32 @@ impl ExitStatus {
     }
 }
 
+/// Writes `holdfast.1` and `holdfast-<sub>[-<sub>].1` for every
+/// subcommand, from the clap definitions.
+fn man_pages(out: &std::path::Path) -> anyhow::Result<ExitStatus> {
+    use anyhow::Context;
+    std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
+    let cmd = <crate::cli::Cli as clap::CommandFactory>::command();
+    fn write(cmd: &clap::Command, name: &str, out: &std::path::Path) -> anyhow::Result<()> {
+        let cmd = cmd.clone().name(name.to_string());
+        let mut page = Vec::new();
+        clap_mangen::Man::new(cmd.clone()).render(&mut page)?;
+        let path = out.join(format!("{name}.1"));
+        std::fs::write(&path, page).with_context(|| format!("writing {}", path.display()))?;
+        println!("{}", crate::text::line(&path.display().to_string()));
+        for sub in cmd.get_subcommands().filter(|s| s.get_name() != "help") {
+            write(sub, &format!("{name}-{}", sub.get_name()), out)?;
+        }
+        Ok(())
+    }
+    write(
+        &cmd.clone().version(env!("CARGO_PKG_VERSION")),
+        "holdfast",
+        out,
+    )?;
+    Ok(ExitStatus::Success)
+}
+
 /// Runs a parsed command line.
 pub fn run(cli: Cli) -> anyhow::Result<ExitStatus> {
     match cli.command {
@@ -47,5 +73,11 @@ pub fn run(cli: Cli) -> anyhow::Result<ExitStatus> {
             }
             crate::cli::PlanCommand::Init(a) => plan_init::run(&a),
         },
+        Command::Completions { shell } => {
+            let mut cmd = <crate::cli::Cli as clap::CommandFactory>::command();
+            clap_complete::generate(shell, &mut cmd, "holdfast", &mut std::io::stdout());
+            Ok(ExitStatus::Success)
+        }
+        Command::Man { out } => man_pages(&out),
     }
 }

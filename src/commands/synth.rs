@@ -116,6 +116,8 @@ pub fn spec_from_args(a: &SynthArgs) -> Result<SynthSpec, UsageError> {
         decimal_comma: a.decimal_comma,
         time_format: a.time_format,
         status_column: a.status,
+        station: a.station.clone(),
+        device: a.device.clone(),
         steps,
         phase_order: a.phase_order,
     };

@@ -17,10 +17,17 @@ fn allow_refs(v: &mut Value) {
                 _ => false,
             };
             if is_number {
-                let orig = Value::Object(std::mem::take(m));
+                let mut orig = std::mem::take(m);
+                // Default and description stay on the key, where editors
+                // and readers look for them.
+                for k in ["default", "description"] {
+                    if let Some(x) = orig.remove(k) {
+                        m.insert(k.into(), x);
+                    }
+                }
                 m.insert(
                     "anyOf".into(),
-                    json!([orig, { "type": "string", "pattern": PARAM_REF }]),
+                    json!([Value::Object(orig), { "type": "string", "pattern": PARAM_REF }]),
                 );
                 return;
             }

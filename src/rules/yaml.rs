@@ -64,7 +64,7 @@ pub fn parse<T: DeserializeOwned>(path: &Path, text: &str) -> Result<T, InputErr
         if let Some(i) = msg.rfind(" at line ") {
             msg.truncate(i);
         }
-        let mut err = InputError::new(path, msg);
+        let mut err = InputError::new(path, crate::text::with_suggestion(msg));
         if let Some(loc) = e.location().filter(|l| l.line() > 0) {
             err = err.line(loc.line()).column(loc.column());
         }

@@ -3,9 +3,10 @@
 //!
 //! Integer types are scaled so the largest value of each channel uses most of
 //! the range (a = max|v| / full scale, b = 0). From revision 1999 on, analog
-//! channels are stored as secondary values (PS = `S`) with a voltage
-//! transformer ratio of 690:100 and a current transformer ratio of 4000:1, so
-//! that a reader must convert to primary values; 1991 files hold primary values.
+//! channels are stored as secondary values (PS = `S`) with instrument
+//! transformer ratios derived from the ratings ([`vt_ratio`], [`ct_ratio`]),
+//! so that a reader must convert to primary values; 1991 files hold primary
+//! values.
 
 use super::{generate, SynthLayout, SynthSpec};
 use crate::import::comtrade::cfg::{DataType, Revision};
@@ -13,9 +14,30 @@ use crate::model::{Connection, CurrentUnit, VoltageUnit};
 use std::io::Write;
 use std::path::Path;
 
-/// Ratios used for secondary values (primary, secondary).
-pub const VT_RATIO: (f64, f64) = (690.0, 100.0);
-pub const CT_RATIO: (f64, f64) = (4000.0, 1.0);
+/// The voltage transformer ratio (primary, secondary) for a unit rated
+/// `rated_kv`: the rated line-to-line voltage in volts to 100 V (a usual
+/// VT secondary rating; IEC 61869-3 lists 100 V and 110 V among the standard
+/// values, from memory).
+pub fn vt_ratio(rated_kv: f64) -> (f64, f64) {
+    (rated_kv * 1e3, 100.0)
+}
+
+/// The current transformer ratio (primary, secondary): the smallest standard
+/// primary current at or above the rated current, to 1 A. Standard primary
+/// ratings 10, 12.5, 15, 20, 25, 30, 40, 50, 60, 75 A and their decimal
+/// multiples (IEC 61869-2, from memory).
+pub fn ct_ratio(rated_current_a: f64) -> (f64, f64) {
+    const STEPS: [f64; 10] = [10.0, 12.5, 15.0, 20.0, 25.0, 30.0, 40.0, 50.0, 60.0, 75.0];
+    let mut decade = 1.0;
+    loop {
+        for s in STEPS {
+            if s * decade >= rated_current_a || decade > 1e6 {
+                return (s * decade, 1.0);
+            }
+        }
+        decade *= 10.0;
+    }
+}
 
 struct Chan {
     name: &'static str,
@@ -126,14 +148,18 @@ fn scaled_channels(spec: &SynthSpec, dt: DataType, rev: Revision) -> std::io::Re
         secondary,
         a: 1.0,
     };
+    let (vt, ct) = (
+        vt_ratio(spec.ratings.rated_kv),
+        ct_ratio(spec.ratings.current_base_a()),
+    );
     let mut chans: Vec<Chan> = match spec.layout {
         SynthLayout::Waveform => vec![
-            mk("VA", pa, &vunit, VT_RATIO, v_sec),
-            mk("VB", pb, &vunit, VT_RATIO, v_sec),
-            mk("VC", pc, &vunit, VT_RATIO, v_sec),
-            mk("IA", "A", &cunit, CT_RATIO, i_sec),
-            mk("IB", "B", &cunit, CT_RATIO, i_sec),
-            mk("IC", "C", &cunit, CT_RATIO, i_sec),
+            mk("VA", pa, &vunit, vt, v_sec),
+            mk("VB", pb, &vunit, vt, v_sec),
+            mk("VC", pc, &vunit, vt, v_sec),
+            mk("IA", "A", &cunit, ct, i_sec),
+            mk("IB", "B", &cunit, ct, i_sec),
+            mk("IC", "C", &cunit, ct, i_sec),
         ],
         SynthLayout::Rms => vec![
             mk("V_POS", "", "pu", (1.0, 1.0), false),
@@ -168,9 +194,14 @@ fn configuration(spec: &SynthSpec, chans: &[Chan], dt: DataType, rev: Revision, 
         cfg.push_str(&s);
         cfg.push_str("\r\n");
     };
+    // Commas would end the fields early.
+    let (station, device) = (
+        spec.station.replace(',', " "),
+        spec.device.replace(',', " "),
+    );
     line(match rev {
-        Revision::R1991 => "SALTMARSH RIDGE,SR07 RECORDER".to_string(),
-        r => format!("SALTMARSH RIDGE,SR07 RECORDER,{}", r.year()),
+        Revision::R1991 => format!("{station},{device}"),
+        r => format!("{station},{device},{}", r.year()),
     });
     line(format!("{},{}A,{}D", n_analog + nd, n_analog, nd));
     let (lo, hi) = match dt {
@@ -181,7 +212,7 @@ fn configuration(spec: &SynthSpec, chans: &[Chan], dt: DataType, rev: Revision, 
     };
     for (k, c) in chans.iter().enumerate() {
         let base = format!(
-            "{},{},{},SR07,{},{:e},0,0,{lo},{hi}",
+            "{},{},{},U1,{},{:e},0,0,{lo},{hi}",
             k + 1,
             c.name,
             c.phase,
@@ -201,7 +232,7 @@ fn configuration(spec: &SynthSpec, chans: &[Chan], dt: DataType, rev: Revision, 
     if nd == 1 {
         line(match rev {
             Revision::R1991 => format!("{},status,1", n_analog + 1),
-            _ => format!("{},status,,SR07,1", n_analog + 1),
+            _ => format!("{},status,,U1,1", n_analog + 1),
         });
     }
     line(format!("{}", spec.frequency_hz));

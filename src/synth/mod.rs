@@ -76,6 +76,10 @@ impl Delimiter {
     }
 }
 
+/// Neutral names for the COMTRADE header (no real site or product).
+pub const DEFAULT_STATION: &str = "SYNTHETIC STATION";
+pub const DEFAULT_DEVICE: &str = "HOLDFAST SYNTH";
+
 /// Everything that defines a synthetic recording.
 #[derive(Clone, Debug, PartialEq)]
 pub struct SynthSpec {
@@ -118,6 +122,9 @@ pub struct SynthSpec {
     pub decimal_comma: bool,
     pub time_format: TimeFormat,
     pub status_column: bool,
+    /// COMTRADE station name and recording device id.
+    pub station: String,
+    pub device: String,
     /// Voltage profile `(from time s, pu)` instead of one fault; the last
     /// step is the recovery. Empty: the fault of `fault_start_s`,
     /// `fault_duration_s` and `residual_pu`.
@@ -165,6 +172,8 @@ impl SynthSpec {
             decimal_comma: false,
             time_format: TimeFormat::Seconds,
             status_column: false,
+            station: DEFAULT_STATION.into(),
+            device: DEFAULT_DEVICE.into(),
             steps: Vec::new(),
             phase_order: crate::model::PhaseOrder::Abc,
         }

@@ -235,3 +235,92 @@ fn check_takes_a_shipped_rule_set_by_id() {
         .assert()
         .code(2);
 }
+
+#[test]
+fn lint_reports_every_problem_in_one_run_with_suggestions() {
+    let dir = tempfile::tempdir().unwrap();
+    // Six independent mistakes: two misspelt top-level and disturbance
+    // keys, a misspelt check field, a misspelt check type, and two values
+    // out of range in checks that parse.
+    let f = crate::common::write(
+        dir.path(),
+        "many.yaml",
+        "id: x\ntitle: t\nsource: s\ntitel: oops\n\
+         disturbance: { below_pu: 0.9, hysterisis_pu: 0.01 }\n\
+         checks:\n\
+         \x20 - { id: lvrt, type: envelope, bound: lower, pionts: [[0, 0], [1, 0.9]] }\n\
+         \x20 - { id: iq, type: reactive_current, gain: -2, rise_time_s: 0.03, settling_time_s: 0.06, tolerance_pu: [-0.1, 0.2], dead_band_pu: 0.1 }\n\
+         \x20 - { id: p, type: active_power_recovery, fraction: 1.5, within_s: 1 }\n\
+         \x20 - { id: q, type: envelop, bound: lower, points: [[0, 0]] }\n",
+    );
+    let out = crate::common::holdfast()
+        .args(["rules", "lint"])
+        .arg(&f)
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    for (place, what) in [
+        ("many.yaml:4:1", "did you mean `title`?"),
+        ("many.yaml:5:31", "did you mean `hysteresis_pu`?"),
+        ("many.yaml:7:47", "did you mean `points`?"),
+        ("many.yaml:8:39", "gain -2 must be in (0, 20]"),
+        ("many.yaml:9:43", "fraction 1.5 must be in (0, 1]"),
+        ("many.yaml:10:14", "did you mean `envelope`?"),
+    ] {
+        let line = err
+            .lines()
+            .find(|l| l.contains(place))
+            .unwrap_or_else(|| panic!("{place} missing:\n{err}"));
+        assert!(line.contains(what), "{place}: {line}");
+    }
+    assert!(err.contains("(6 problems)"), "{err}");
+}
+
+#[test]
+fn completions_and_man_pages_come_from_the_command_definitions() {
+    let cmd = <holdfast::cli::Cli as clap::CommandFactory>::command();
+    let subs: Vec<String> = cmd
+        .get_subcommands()
+        .map(|s| s.get_name().to_string())
+        .collect();
+    for shell in ["bash", "zsh", "fish", "elvish", "powershell"] {
+        let out = holdfast().args(["completions", shell]).output().unwrap();
+        assert!(out.status.success(), "{shell}");
+        let text = String::from_utf8_lossy(&out.stdout);
+        for s in &subs {
+            assert!(text.contains(s.as_str()), "{shell} completion lacks {s}");
+        }
+        assert!(text.contains("rated-kv"), "{shell}: options of check");
+    }
+    let dir = tempfile::tempdir().unwrap();
+    holdfast()
+        .args(["man", "--out"])
+        .arg(dir.path())
+        .assert()
+        .success();
+    let top = std::fs::read_to_string(dir.path().join("holdfast.1")).unwrap();
+    assert!(
+        top.starts_with(".ie") || top.contains(".TH holdfast"),
+        "{}",
+        &top[..200.min(top.len())]
+    );
+    // One page per subcommand (and per sub-subcommand), each with its options.
+    for s in cmd.get_subcommands() {
+        let page = dir.path().join(format!("holdfast-{}.1", s.get_name()));
+        let text = std::fs::read_to_string(&page).unwrap_or_else(|_| panic!("{}", page.display()));
+        for a in s.get_arguments().filter_map(|a| a.get_long()) {
+            assert!(
+                text.contains(&a.replace('-', "\\-")),
+                "{}: --{a}",
+                page.display()
+            );
+        }
+        for sub in s.get_subcommands() {
+            let p = dir
+                .path()
+                .join(format!("holdfast-{}-{}.1", s.get_name(), sub.get_name()));
+            assert!(p.exists(), "{}", p.display());
+        }
+    }
+}

@@ -6,7 +6,7 @@ use crate::common::{self, holdfast};
 use holdfast::import::comtrade::cfg::{DataType, Revision};
 use holdfast::import::{open, ChannelMap, ImportOptions};
 use holdfast::model::{ChannelKey, Collected};
-use holdfast::synth::comtrade::{write_comtrade, CT_RATIO, VT_RATIO};
+use holdfast::synth::comtrade::{ct_ratio, vt_ratio, write_comtrade};
 use holdfast::synth::{generate, SynthSpec};
 use predicates::prelude::*;
 use serde_json::Value;
@@ -168,7 +168,44 @@ fn every_type_and_revision_round_trips_within_quantisation() {
             .any(|(k, v)| k == "values" && v.contains("converted from secondary"));
         assert_eq!(converted, rev != Revision::R1991, "{p:?}");
     }
-    assert!(VT_RATIO.0 > VT_RATIO.1 && CT_RATIO.0 > CT_RATIO.1);
+}
+
+#[test]
+fn instrument_transformer_ratios_follow_the_ratings() {
+    // 0.69 kV, 4.2 MVA: In = 4.2e6/(√3·690) = 3514.3 A (by hand), the next
+    // standard primary current is 4000 A (IEC 61869-2 series 10, 12.5, 15,
+    // 20, 25, 30, 40, 50, 60, 75 × 10^n, from memory); VT 690 V : 100 V.
+    assert_eq!(vt_ratio(0.69), (690.0, 100.0));
+    assert_eq!(ct_ratio(3514.3), (4000.0, 1.0));
+    // 33 kV, 50 MVA: In = 874.8 A → 1000 A; exactly on a step stays there.
+    assert_eq!(vt_ratio(33.0), (33000.0, 100.0));
+    assert_eq!(ct_ratio(874.8), (1000.0, 1.0));
+    assert_eq!(ct_ratio(750.0), (750.0, 1.0));
+    assert_eq!(ct_ratio(12.6), (15.0, 1.0));
+    // A written file states them, and the neutral station and device names.
+    let dir = tempfile::tempdir().unwrap();
+    let cfg = crate::common::synth(
+        dir.path(),
+        "r.cfg",
+        &[
+            "--rated-kv",
+            "33",
+            "--rated-mva",
+            "50",
+            "--sample-rate",
+            "2000",
+            "--duration",
+            "0.3",
+        ],
+        &[],
+    );
+    let text = std::fs::read_to_string(&cfg).unwrap();
+    let first = text.lines().next().unwrap();
+    assert_eq!(first, "SYNTHETIC STATION,HOLDFAST SYNTH,2013");
+    let va = text.lines().find(|l| l.starts_with("1,VA,")).unwrap();
+    assert!(va.ends_with(",33000,100,S"), "{va}");
+    let ia = text.lines().find(|l| l.starts_with("4,IA,")).unwrap();
+    assert!(ia.ends_with(",1000,1,S"), "{ia}");
 }
 
 #[test]

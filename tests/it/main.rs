@@ -12,6 +12,7 @@ mod cli_rules;
 mod cli_verdicts;
 mod comtrade;
 mod contract;
+mod docs;
 mod evidence;
 mod figures;
 mod library;
