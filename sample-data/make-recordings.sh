@@ -25,3 +25,11 @@ s --out $d/t13-table-trip.csv         --duration 2.5 --residual 0.6 --fault-dura
 # COMTRADE (IEEE C37.111-2013 single-file .cff, 16-bit binary data, secondary values
 # with a breaker status channel): a single-phase dip with negative-sequence support.
 s --out $d/t14-comtrade-single-phase.cff --duration 2.5 --residuals 0.25,1.0,1.0 --fault-duration 0.2 --k2-gain 2 --status --comtrade-type binary --revision 2013 --station "SALTMARSH RIDGE" --device "SR07 RECORDER"
+# Events that are not voltage dips (rule sets rules/nerc-prc-029-1-phase-jump.yaml,
+# sample-data/demo-repeated-faults.yaml, rules/eu-rfg-2016-631-frequency.yaml):
+# a 20° phase jump with no change of magnitude and a trip 0.3 s later; two dips
+# to 0.4 pu 1 s apart, ridden through; the frequency falling at 0.5 Hz/s to
+# 48.8 Hz and a trip at 4 s.
+s --out $d/t15-phase-jump-trip.csv    --duration 2.5 --residual 1.0 --fault-duration 5 --phase-jump 20 --trip-at 0.8 --status
+s --out $d/t16-repeated-faults.csv    --duration 3.0 --steps 0.5:0.4,0.7:1.0,1.5:0.4,1.7:1.0 --status
+s --out $d/t17-frequency-trip.csv     --duration 5.0 --residual 1.0 --frequency-profile 1.0:50,3.4:48.8 --trip-at 4.0 --status

@@ -442,6 +442,11 @@ pub struct SynthArgs {
     /// --recovery), e.g. 1.0:0.2,1.25:0.75,1.4:1.0 or two faults 1.0:0.3,1.2:1.0,1.5:0.3,1.7:1.0.
     #[arg(long, value_name = "LIST")]
     pub steps: Option<String>,
+    /// Grid frequency against time instead of the nominal one: TIME:HZ,... linear between the
+    /// points (the first value before the first time, the last after), e.g. 1.0:50,3.0:49 for a
+    /// ramp of −0.5 Hz/s; the phase follows it continuously.
+    #[arg(long, value_name = "LIST")]
+    pub frequency_profile: Option<String>,
     /// Phase rotation written to the file: abc, or acb (the b and c columns hold phases c and b).
     #[arg(long, value_enum, default_value = "abc", value_name = "ORDER")]
     pub phase_order: PhaseOrder,

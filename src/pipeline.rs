@@ -257,6 +257,12 @@ fn test_result(
         rule_set: Some(rules.rules.id.clone()),
         description: test.description.clone(),
         analysis: None,
+        phase_jumps: outcome
+            .angle
+            .as_ref()
+            .map(|a| a.0.clone())
+            .unwrap_or_default(),
+        frequency: outcome.angle.as_ref().map(|a| a.1),
     })
 }
 

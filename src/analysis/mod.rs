@@ -14,6 +14,7 @@
 //! `Iq2 = Im(V2·conj(I2))/|V2|`, negative when the unit behaves like an
 //! inductance towards the negative sequence.
 
+pub mod angle;
 pub mod events;
 pub mod phasor;
 pub mod sequence;
@@ -68,9 +69,16 @@ pub enum Quantity {
     /// previous point (pu): how far the waveform left the sinusoid of one
     /// cycle before. Zero in steady state; marks inception and clearance.
     WaveDeviation,
+    /// Waveforms: angle of the positive-sequence voltage against the
+    /// nominal-frequency reference of the DFT, radians, unwrapped (it turns
+    /// at `2π·(f − fn)`); NaN where `|V1|` is below [`MIN_ANGLE_PU`].
+    V1Angle,
 }
 
-pub const N_Q: usize = 19;
+pub const N_Q: usize = 20;
+
+/// Below this `|V1|` (pu) the positive-sequence angle is not used.
+pub const MIN_ANGLE_PU: f64 = 0.05;
 
 impl Quantity {
     pub const ALL: [Quantity; N_Q] = [
@@ -93,6 +101,7 @@ impl Quantity {
         Quantity::IMax,
         Quantity::Status,
         Quantity::WaveDeviation,
+        Quantity::V1Angle,
     ];
     pub fn name(self) -> &'static str {
         match self {
@@ -115,6 +124,7 @@ impl Quantity {
             Quantity::IMax => "i_max",
             Quantity::Status => "status",
             Quantity::WaveDeviation => "wave_deviation",
+            Quantity::V1Angle => "v1_angle",
         }
     }
 }
@@ -240,6 +250,8 @@ pub struct Analyzer {
     deviation_max: f64,
     u1: Option<Complex64>,
     u2: Option<Complex64>,
+    /// The last usable raw V1 angle and the unwrapped angle there.
+    angle: Option<(f64, f64)>,
     series: Series,
     xbuf: [f64; 7],
     frequency_hz: f64,
@@ -346,6 +358,7 @@ fn quantities(
                 Quantity::Vbc,
                 Quantity::Vca,
                 Quantity::WaveDeviation,
+                Quantity::V1Angle,
             ]);
             if info.connection == Connection::PhaseToNeutral || info.has(ChannelKey::Vn) {
                 present.push(Quantity::V0);
@@ -459,6 +472,7 @@ impl Analyzer {
             status_min: f64::INFINITY,
             deviation_max: 0.0,
             u1: None,
+            angle: None,
             u2: None,
             series: Series::new(&present),
             xbuf: [0.0; 7],
@@ -618,6 +632,22 @@ impl Analyzer {
         }
         s.push(Quantity::WaveDeviation, self.deviation_max);
         self.deviation_max = 0.0;
+        let unwrapped = if v1.norm() >= MIN_ANGLE_PU && v1.norm().is_finite() {
+            let raw = v1.arg();
+            let u = match self.angle {
+                Some((last_raw, last)) => {
+                    let d = raw - last_raw;
+                    last + (d + std::f64::consts::PI).rem_euclid(std::f64::consts::TAU)
+                        - std::f64::consts::PI
+                }
+                None => raw,
+            };
+            self.angle = Some((raw, u));
+            u
+        } else {
+            f64::NAN
+        };
+        s.push(Quantity::V1Angle, unwrapped);
     }
 }
 

@@ -41,6 +41,10 @@ pub struct InspectReport {
     detection: Option<DetectionSettings>,
     disturbances: Vec<Disturbance>,
     trip: Option<TripInfo>,
+    /// Steps of the positive-sequence voltage angle (waveform recordings).
+    phase_jumps: Vec<crate::analysis::angle::PhaseJump>,
+    /// The frequency from the positive-sequence angle (waveform recordings).
+    frequency: Option<crate::analysis::angle::FrequencySummary>,
     notes: Vec<String>,
     caution: &'static str,
 }
@@ -140,6 +144,8 @@ impl InspectReport {
             analysis: None,
             detection: None,
             disturbances: Vec::new(),
+            phase_jumps: Vec::new(),
+            frequency: None,
             trip: None,
             notes,
             caution: CAUTION,
@@ -192,6 +198,12 @@ fn analyse(
         }
     };
     let trip = detect_trip(&analysed.series, &det);
+    let end = analysed.series.t.last().copied().unwrap_or(0.0);
+    let spans: Vec<(f64, f64)> = disturbances
+        .iter()
+        .map(|d| (d.start_s, d.end_s.unwrap_or(end)))
+        .collect();
+    let angle = crate::analysis::angle::summarise(&analysed.series, f, &spans);
     Ok(InspectReport {
         schema_version: 1,
         analysis: Some(AnalysisFacts {
@@ -204,6 +216,8 @@ fn analyse(
         detection: Some(det),
         disturbances,
         trip: Some(trip),
+        phase_jumps: angle.as_ref().map(|a| a.0.clone()).unwrap_or_default(),
+        frequency: angle.map(|a| a.1),
         notes,
         caution: CAUTION,
     })
@@ -272,12 +286,59 @@ fn write_text(out: &mut dyn Write, r: &InspectReport) -> std::io::Result<()> {
     if let Some(t) = &r.trip {
         write_trip(out, t)?;
     }
+    write_angle(out, r)?;
     for n in i.notes.iter().chain(&r.notes) {
         writeln!(out, "note        {n}")?;
     }
     writeln!(out)?;
     writeln!(out, "{CAUTION}")?;
     Ok(())
+}
+
+/// Phase jumps and the frequency, where the recording has an angle.
+fn write_angle(out: &mut dyn Write, r: &InspectReport) -> std::io::Result<()> {
+    let Some(f) = &r.frequency else {
+        return Ok(());
+    };
+    writeln!(
+        out,
+        "phase jumps ({}° or more, positive-sequence angle against the pre-event reference): {}",
+        crate::analysis::angle::DEFAULT_THRESHOLD_DEG,
+        r.phase_jumps.len()
+    )?;
+    for (n, j) in r.phase_jumps.iter().enumerate() {
+        writeln!(
+            out,
+            "  #{n} at {}: {:+.2}° (reference {:.3} Hz over {}..{}){}",
+            fmt_s(j.at_s),
+            j.jump_deg,
+            j.reference_hz,
+            fmt_s(j.reference_s[0]),
+            fmt_s(j.reference_s[1]),
+            if j.settled {
+                ""
+            } else {
+                ", not settled: approximate"
+            }
+        )?;
+    }
+    match (f.min_hz, f.max_hz) {
+        (Some(lo), Some(hi)) => writeln!(
+            out,
+            "frequency   {lo:.3}..{hi:.3} Hz over {} s windows ({:.0} % of the points; disturbances and jumps left out); largest |ROCOF| over {} s {}",
+            f.averaging_s,
+            f.estimated_share * 100.0,
+            f.rocof_window_s,
+            f.max_abs_rocof_hz_per_s
+                .map(|x| format!("{x:.3} Hz/s"))
+                .unwrap_or_else(|| "not estimated".into())
+        ),
+        _ => writeln!(
+            out,
+            "frequency   not estimated (no {} s stretch free of disturbances and jumps)",
+            f.averaging_s
+        ),
+    }
 }
 
 /// The channels of the file as it states them, with what each is mapped to.

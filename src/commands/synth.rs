@@ -38,31 +38,34 @@ pub fn spec_from_args(a: &SynthArgs) -> Result<SynthSpec, UsageError> {
         }
         None => None,
     };
-    let mut steps = Vec::new();
-    if let Some(list) = &a.steps {
-        for item in list.split(',').filter(|x| !x.trim().is_empty()) {
-            let bad = || {
-                UsageError(format!(
-                    "--steps item '{item}': expected TIME:PU, e.g. 1.0:0.2"
-                ))
-            };
-            let (t, v) = item.split_once(':').ok_or_else(bad)?;
-            let t: f64 = t.trim().parse().map_err(|_| bad())?;
-            let v: f64 = v.trim().parse().map_err(|_| bad())?;
-            if !(t.is_finite() && t >= 0.0 && v.is_finite() && v >= 0.0) {
-                return Err(bad());
+    let steps = match &a.steps {
+        Some(list) => {
+            let steps = time_list(list, "--steps", "PU", "1.0:0.2")?;
+            if steps.len() < 2 {
+                return Err(UsageError(format!(
+                    "--steps '{list}': give at least a fault step and the recovery step"
+                )));
             }
-            if steps.last().is_some_and(|(p, _): &(f64, f64)| t <= *p) {
-                return Err(UsageError(format!("--steps '{list}': times must increase")));
+            steps
+        }
+        None => Vec::new(),
+    };
+    let frequency_profile = match &a.frequency_profile {
+        Some(list) => {
+            let p = time_list(list, "--frequency-profile", "HZ", "1.0:50,3.0:49")?;
+            if let Some((_, f)) = p
+                .iter()
+                .find(|(_, f)| !(*f > 0.5 * a.frequency && *f < 1.5 * a.frequency))
+            {
+                return Err(UsageError(format!(
+                    "--frequency-profile: {f} Hz is not within ±50 % of the nominal {} Hz",
+                    a.frequency
+                )));
             }
-            steps.push((t, v));
+            p
         }
-        if steps.len() < 2 {
-            return Err(UsageError(format!(
-                "--steps '{list}': give at least a fault step and the recovery step"
-            )));
-        }
-    }
+        None => Vec::new(),
+    };
     let mut harmonics = Vec::new();
     if let Some(h) = &a.harmonics {
         for item in h.split(',').filter(|x| !x.trim().is_empty()) {
@@ -119,6 +122,7 @@ pub fn spec_from_args(a: &SynthArgs) -> Result<SynthSpec, UsageError> {
         station: a.station.clone(),
         device: a.device.clone(),
         steps,
+        frequency_profile,
         phase_order: a.phase_order,
     };
     spec.validate().map_err(UsageError)?;
@@ -160,4 +164,32 @@ pub fn run(args: &SynthArgs) -> anyhow::Result<ExitStatus> {
     };
     eprintln!("wrote {} ({n} samples)", args.out.display());
     Ok(ExitStatus::Success)
+}
+
+/// A list `TIME:VALUE,...` with increasing times and non-negative values.
+fn time_list(
+    list: &str,
+    flag: &str,
+    what: &str,
+    example: &str,
+) -> Result<Vec<(f64, f64)>, UsageError> {
+    let mut out: Vec<(f64, f64)> = Vec::new();
+    for item in list.split(',').filter(|x| !x.trim().is_empty()) {
+        let bad = || {
+            UsageError(format!(
+                "{flag} item '{item}': expected TIME:{what}, e.g. {example}"
+            ))
+        };
+        let (t, v) = item.split_once(':').ok_or_else(bad)?;
+        let t: f64 = t.trim().parse().map_err(|_| bad())?;
+        let v: f64 = v.trim().parse().map_err(|_| bad())?;
+        if !(t.is_finite() && t >= 0.0 && v.is_finite() && v >= 0.0) {
+            return Err(bad());
+        }
+        if out.last().is_some_and(|(p, _)| t <= *p) {
+            return Err(UsageError(format!("{flag} '{list}': times must increase")));
+        }
+        out.push((t, v));
+    }
+    Ok(out)
 }

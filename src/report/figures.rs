@@ -207,7 +207,166 @@ pub fn figures(inp: &FigureInput<'_>) -> Vec<Figure> {
     if let Some(f) = power_figure(&fr) {
         out.push(f);
     }
+    if let Some(f) = phase_figure(&fr) {
+        out.push(f);
+    }
+    // Frequency over the whole recording: its events are long.
+    let whole = Frame {
+        inp,
+        lo: t_first,
+        hi: t_last,
+    };
+    if let Some(f) = frequency_figure(&whole) {
+        out.push(f);
+    }
     out
+}
+
+/// The points of `(t, v)` in `[lo, hi]`, decimated run by run: NaN
+/// between runs of finite values, so that lines break there.
+fn runs(points: &[(f64, f64)], lo: f64, hi: f64, buckets: usize) -> Vec<(f64, f64)> {
+    let mut out = Vec::new();
+    let mut k = 0;
+    while k < points.len() {
+        if !points[k].1.is_finite() {
+            k += 1;
+            continue;
+        }
+        let a = k;
+        while k < points.len() && points[k].1.is_finite() {
+            k += 1;
+        }
+        let (t, v): (Vec<f64>, Vec<f64>) = points[a..k].iter().copied().unzip();
+        if !out.is_empty() {
+            out.push((t[0], f64::NAN));
+        }
+        out.extend(plot::minmax_decimate(&t, &v, lo, hi, buckets));
+    }
+    out
+}
+
+/// The positive-sequence angle against its pre-event reference, with the
+/// jumps and the ride-through limit.
+fn phase_figure(fr: &Frame<'_>) -> Option<Figure> {
+    let inp = fr.inp;
+    let checks = fr.results(FigureKind::PhaseAngle);
+    if checks.is_empty() {
+        return None;
+    }
+    let mut f = fr.spec("angle against the pre-event reference (degrees)");
+    let mut ys: Vec<f64> = vec![0.0];
+    for (c, o) in inp.overlays {
+        let Overlay::PhaseAngle {
+            deviation,
+            jumps,
+            limit_deg,
+        } = o
+        else {
+            continue;
+        };
+        let points = runs(deviation, fr.lo, fr.hi, POINTS / 2);
+        ys.extend(points.iter().map(|p| p.1));
+        f.traces.push(Trace {
+            label: "positive-sequence voltage angle".into(),
+            points,
+            color: plot::MEASURED,
+            dashed: false,
+            width: 2,
+        });
+        for sign in [1.0, -1.0] {
+            f.traces.push(Trace {
+                label: if sign > 0.0 {
+                    format!(
+                        "ride-through limit ±{limit_deg}° ({}): {}",
+                        c.id,
+                        verdict_label(c)
+                    )
+                } else {
+                    String::new()
+                },
+                points: vec![(fr.lo, sign * limit_deg), (fr.hi, sign * limit_deg)],
+                color: plot::REQUIRED,
+                dashed: true,
+                width: 2,
+            });
+        }
+        ys.extend([*limit_deg, -limit_deg]);
+        for (t, j) in jumps {
+            f.vlines.push(VLine {
+                t: *t,
+                label: format!("jump {j:+.1}°"),
+            });
+        }
+        break;
+    }
+    f.y_range = plot::y_range(ys.into_iter(), (-5.0, 5.0));
+    fr.events(&mut f);
+    f.title = format!("{} – phase angle – {}", inp.test_id, verdicts(&checks));
+    Some(Figure {
+        quantity: "phase_angle",
+        spec: f,
+    })
+}
+
+/// The frequency over the whole recording with the ride-through levels.
+fn frequency_figure(fr: &Frame<'_>) -> Option<Figure> {
+    let inp = fr.inp;
+    let checks = fr.results(FigureKind::Frequency);
+    if checks.is_empty() {
+        return None;
+    }
+    let mut f = fr.spec("frequency (Hz)");
+    let mut ys: Vec<f64> = Vec::new();
+    let mut traced = false;
+    for (c, o) in inp.overlays {
+        let Overlay::Frequency {
+            f: freq,
+            levels,
+            note,
+        } = o
+        else {
+            continue;
+        };
+        if !traced {
+            let points = runs(freq, fr.lo, fr.hi, POINTS / 2);
+            ys.extend(points.iter().map(|p| p.1));
+            f.traces.push(Trace {
+                label: "frequency (from the positive-sequence angle)".into(),
+                points,
+                color: plot::MEASURED,
+                dashed: false,
+                width: 2,
+            });
+            traced = true;
+        }
+        for (hz, label) in levels {
+            ys.push(*hz);
+            f.traces.push(Trace {
+                label: format!("{label} ({}): {}", c.id, verdict_label(c)),
+                points: vec![(fr.lo, *hz), (fr.hi, *hz)],
+                color: plot::BOUNDARY,
+                dashed: false,
+                width: 2,
+            });
+        }
+        if let Some(n) = note {
+            f.traces.push(Trace {
+                label: format!("{n}: {}", verdict_label(c)),
+                points: Vec::new(),
+                color: plot::REQUIRED,
+                dashed: false,
+                width: 1,
+            });
+        }
+    }
+    let mid = ys.iter().copied().filter(|y| y.is_finite()).sum::<f64>() / ys.len().max(1) as f64;
+    f.y_range = plot::y_range(ys.into_iter(), (mid - 0.1, mid + 0.1));
+    fr.events(&mut f);
+    f.title = format!("{} – frequency – {}", inp.test_id, verdicts(&checks));
+    Some(Figure {
+        quantity: "frequency",
+        spec: f,
+    })
 }
 
 fn voltage_figure(fr: &Frame<'_>) -> Figure {

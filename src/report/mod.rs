@@ -23,6 +23,10 @@ pub fn fmt_value(v: Option<f64>, unit: Unit) -> String {
         Some(x) => match unit {
             Unit::S => format!("{x:.4} s"),
             Unit::Pu => format!("{x:.3} pu"),
+            Unit::Deg => format!("{x:.2}°"),
+            Unit::Hz => format!("{x:.3} Hz"),
+            Unit::HzPerS => format!("{x:.3} Hz/s"),
+            Unit::Count => format!("{x:.0}"),
         },
     }
 }

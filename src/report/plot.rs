@@ -401,7 +401,12 @@ fn legend_box(
     size: &dyn Fn(&str) -> (i32, i32),
     to_px: &dyn Fn((f64, f64)) -> (i32, i32),
 ) -> TextBox {
-    let mut texts: Vec<&str> = f.traces.iter().map(|t| t.label.as_str()).collect();
+    let mut texts: Vec<&str> = f
+        .traces
+        .iter()
+        .map(|t| t.label.as_str())
+        .filter(|l| !l.is_empty())
+        .collect();
     for name in f.shades.iter().filter_map(|s| s.label.as_deref()) {
         if !texts.contains(&name) {
             texts.push(name);
@@ -522,7 +527,16 @@ fn draw_traces<'a, DB: DrawingBackend + 'a>(
             .into_iter()
             .flat_map(|piece| without_sharp_turns(&piece, &px, bitmap && tr.width > 1))
             .collect();
-        let mut labelled = false;
+        let mut labelled = tr.label.is_empty();
+        if tr.points.is_empty() && !labelled {
+            // A legend line of its own (a note on the figure).
+            chart
+                .draw_series(std::iter::empty::<Rectangle<(f64, f64)>>())
+                .map_err(e)?
+                .label(&tr.label)
+                .legend(|(x, y)| EmptyElement::at((x, y)));
+            continue;
+        }
         for piece in pieces {
             let series = if tr.dashed {
                 chart.draw_series(DashedLineSeries::new(piece, 8, 5, style))

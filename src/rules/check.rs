@@ -25,6 +25,18 @@ pub struct Context<'a> {
     pub cycle: f64,
 }
 
+/// What a check judged on the whole recording sees ([`Check::evaluate_recording`]).
+pub struct Recording<'a> {
+    pub series: &'a Series,
+    /// The applicable voltage, on the series' time base.
+    pub v: &'a [f64],
+    pub disturbances: &'a [Disturbance],
+    pub trip: &'a TripInfo,
+    pub cycle: f64,
+    pub f_nom: f64,
+    pub rec_end: f64,
+}
+
 /// What a check result adds to its test's figures (absolute times).
 #[derive(Clone, Debug, PartialEq)]
 pub enum Overlay {
@@ -49,6 +61,23 @@ pub enum Overlay {
         rise_limit_s: f64,
         settled_at: Option<(f64, f64)>,
     },
+    /// The positive-sequence angle against its pre-event reference, with
+    /// the jumps and the ride-through limit.
+    PhaseAngle {
+        /// `(t, degrees)`.
+        deviation: Vec<(f64, f64)>,
+        /// `(t, jump degrees)` of every jump found.
+        jumps: Vec<(f64, f64)>,
+        limit_deg: f64,
+    },
+    /// The frequency with its ride-through levels (`(Hz, label)`), and the
+    /// ROCOF limit in words where there is one.
+    Frequency {
+        /// `(t, Hz)`; NaN where the frequency is not estimated.
+        f: Vec<(f64, f64)>,
+        levels: Vec<(f64, String)>,
+        note: Option<String>,
+    },
     /// An active-power target from the disturbance end, with its deadline.
     Power {
         target: f64,
@@ -67,6 +96,8 @@ pub enum FigureKind {
     Voltage,
     ReactiveCurrent { negative: bool },
     ActivePower,
+    PhaseAngle,
+    Frequency,
 }
 
 /// How `rules plot` draws a check on its own (relative times, or the
@@ -105,10 +136,16 @@ pub trait Check {
     fn unit(&self) -> Unit;
     /// Values that cannot make sense, as (key, message).
     fn problems(&self, out: &mut Vec<(&'static str, String)>);
-    /// Does it concern a disturbance of this kind?
-    fn concerns(&self, kind: DisturbanceKind) -> bool;
-    /// The verdict for one disturbance (`r` carries id, type, unit, index).
-    fn evaluate(&self, ctx: &Context<'_>, r: CheckResult) -> CheckResult;
+    /// Does it concern a disturbance of this kind? (Checks judged on the
+    /// whole recording concern none: the default.)
+    fn concerns(&self, _kind: DisturbanceKind) -> bool {
+        false
+    }
+    /// The verdict for one disturbance (`r` carries id, type, unit, index);
+    /// called only for disturbances it [`Check::concerns`].
+    fn evaluate(&self, _ctx: &Context<'_>, r: CheckResult) -> CheckResult {
+        r
+    }
     /// After every check of the disturbance was evaluated: a check whose
     /// verdict depends on the zone checks' (active power after a trip)
     /// looks at them here.
@@ -119,7 +156,9 @@ pub trait Check {
     }
     /// How long after a disturbance its requirement reaches, s (the
     /// figures' extent; recovery also sets the pre-fault allowance).
-    fn extent_s(&self) -> f64;
+    fn extent_s(&self) -> f64 {
+        0.0
+    }
     /// After a disturbance, how long its recovery may take (pre-fault
     /// windows of later disturbances keep clear of it).
     fn recovery_allowance_s(&self) -> Option<f64> {
@@ -130,9 +169,22 @@ pub trait Check {
     /// The figure its result belongs to.
     fn figure(&self) -> FigureKind;
     /// What the result adds to its test's figures.
-    fn overlay(&self, r: &CheckResult, ctx: &Context<'_>) -> Option<Overlay>;
+    fn overlay(&self, _r: &CheckResult, _ctx: &Context<'_>) -> Option<Overlay> {
+        None
+    }
     /// How `rules plot` draws it.
     fn drawing(&self, _rule_set_id: &str) -> Option<RuleDrawing> {
+        None
+    }
+    /// Checks judged on the whole recording rather than per voltage
+    /// disturbance (phase jumps, frequency, sequences of disturbances)
+    /// give their results here, after the per-disturbance checks; `None`
+    /// (the default): judged per disturbance with [`Check::evaluate`].
+    fn evaluate_recording(&self, _rec: &Recording<'_>) -> Option<Vec<CheckResult>> {
+        None
+    }
+    /// What a result of [`Check::evaluate_recording`] adds to the figures.
+    fn recording_overlay(&self, _r: &CheckResult, _rec: &Recording<'_>) -> Option<Overlay> {
         None
     }
 }

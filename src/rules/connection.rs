@@ -104,30 +104,39 @@ fn judge_trip(inp: &ConnectionInput<'_>, mut r: CheckResult, tt: f64, how: &str)
         .collect();
     if let Some(c) = judged.iter().find(|c| c.permitted_trip == Some(false)) {
         r.disturbance = c.disturbance;
+        let inside = match c.disturbance {
+            Some(d) => format!(
+                "while the voltage was inside the ride-through zone of check {} (disturbance #{d})",
+                c.id
+            ),
+            None => format!(
+                "within what check {} requires the unit to ride through (its result says why)",
+                c.id
+            ),
+        };
         return r.decide(
             Verdict::Fail,
             Reason::TripInsideZone,
-            format!(
-                "the unit tripped at {tt:.3} s ({how}) while the voltage was inside the ride-through zone of check {} (disturbance #{})",
-                c.id,
-                c.disturbance.map_or("?".into(), |d| d.to_string())
-            ),
+            format!("the unit tripped at {tt:.3} s ({how}) {inside}"),
         );
     }
     if let Some(c) = judged.first() {
         r.disturbance = c.disturbance;
+        let ids = judged
+            .iter()
+            .map(|c| c.id.as_str())
+            .collect::<Vec<_>>()
+            .join(", ");
+        let after = match c.disturbance {
+            Some(d) => format!(
+                "after the voltage had left the ride-through zone of {ids} (disturbance #{d})"
+            ),
+            None => format!("beyond what {ids} requires the unit to ride through"),
+        };
         return r.decide(
             Verdict::Pass,
             Reason::PermittedTrip,
-            format!(
-                "the unit tripped at {tt:.3} s ({how}) after the voltage had left the ride-through zone of {} (disturbance #{}): a permitted trip",
-                judged
-                    .iter()
-                    .map(|c| c.id.as_str())
-                    .collect::<Vec<_>>()
-                    .join(", "),
-                c.disturbance.map_or("?".into(), |d| d.to_string())
-            ),
+            format!("the unit tripped at {tt:.3} s ({how}) {after}: a permitted trip"),
         );
     }
     // No zone check judged the trip: where was it?

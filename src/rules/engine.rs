@@ -3,7 +3,7 @@
 //! `connection` check over the whole recording. The engine knows no check
 //! type: it asks each through the [`Check`] trait.
 
-use super::check::{Check, Context, Overlay};
+use super::check::{Check, Context, Overlay, Recording};
 use super::connection::{self, ConnectionInput};
 use super::realisation::{self, Expect};
 use super::registry::{CheckKind, Unit};
@@ -23,6 +23,11 @@ pub struct Outcome {
     pub notes: Vec<String>,
     /// Applicable voltage series (same time base as the analysis series).
     pub applicable: Option<Vec<f64>>,
+    /// Phase jumps and the frequency in brief (waveform recordings).
+    pub angle: Option<(
+        Vec<crate::analysis::angle::PhaseJump>,
+        crate::analysis::angle::FrequencySummary,
+    )>,
 }
 
 /// Detection thresholds from a rule set.
@@ -161,6 +166,7 @@ fn finish(
         checks,
         notes,
         applicable,
+        angle: None,
     }
 }
 
@@ -257,7 +263,20 @@ pub fn evaluate(
     let conn_at = checks.len();
     // Each check for each disturbance it concerns, in rule-set order.
     let first_rule_row = checks.len();
+    let rec = Recording {
+        series,
+        v: &v,
+        disturbances: &disturbances,
+        trip: &trip,
+        cycle,
+        f_nom: det.frequency_hz,
+        rec_end: series.t.last().copied().unwrap_or(0.0),
+    };
     for c in &checks_of {
+        if let Some(results) = c.evaluate_recording(&rec) {
+            checks.extend(results);
+            continue;
+        }
         let mut any = false;
         for (k, d) in disturbances.iter().enumerate() {
             if !c.concerns(d.kind) {
@@ -285,7 +304,14 @@ pub fn evaluate(
                 .into(),
         );
     }
-    finish(checks, notes, disturbances, trip, Some(v))
+    let spans: Vec<(f64, f64)> = disturbances
+        .iter()
+        .map(|d| (d.start_s, d.end_s.unwrap_or(rec.rec_end)))
+        .collect();
+    let angle = crate::analysis::angle::summarise(series, det.frequency_hz, &spans);
+    let mut out = finish(checks, notes, disturbances, trip, Some(v));
+    out.angle = angle;
+    out
 }
 
 /// Lets each check look at the zone checks of its disturbance
@@ -322,9 +348,14 @@ fn connection_check(
         .iter()
         .map(|d| zones.iter().any(|c| c.concerns(d.kind)))
         .collect();
+    // Zone checks of the disturbances, and the checks of other events that
+    // judged a trip (phase jumps, frequency).
     let zone_results: Vec<&CheckResult> = checks
         .iter()
-        .filter(|r| r.disturbance.is_some() && zones.iter().any(|c| c.id() == r.id))
+        .filter(|r| {
+            (r.disturbance.is_some() && zones.iter().any(|c| c.id() == r.id))
+                || (r.disturbance.is_none() && r.permitted_trip.is_some())
+        })
         .collect();
     connection::evaluate(&ConnectionInput {
         t: &series.t,
@@ -353,10 +384,29 @@ pub fn overlays<'a>(
         return Vec::new();
     };
     let cycle = 1.0 / det.frequency_hz;
+    let rec = Recording {
+        series,
+        v,
+        disturbances: &outcome.disturbances,
+        trip: &outcome.trip,
+        cycle,
+        f_nom: det.frequency_hz,
+        rec_end: series.t.last().copied().unwrap_or(0.0),
+    };
     let mut out = Vec::new();
+    let mut drawn: Vec<&str> = Vec::new();
     for r in &outcome.checks {
-        let (Some(k), Some(spec)) = (r.disturbance, rules.checks.iter().find(|c| c.id() == r.id))
-        else {
+        let Some(spec) = rules.checks.iter().find(|c| c.id() == r.id) else {
+            continue;
+        };
+        let Some(k) = r.disturbance else {
+            // Checks of other events: one overlay per check.
+            if !drawn.contains(&r.id.as_str()) {
+                if let Some(o) = spec.check().recording_overlay(r, &rec) {
+                    drawn.push(&r.id);
+                    out.push((r, o));
+                }
+            }
             continue;
         };
         if k >= outcome.disturbances.len() {

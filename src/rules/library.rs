@@ -9,6 +9,10 @@ pub const SHIPPED: &[(&str, &str)] = &[
         include_str!("../../rules/eu-hvdc-2016-1447-table-7.yaml"),
     ),
     (
+        "eu-rfg-2016-631-frequency.yaml",
+        include_str!("../../rules/eu-rfg-2016-631-frequency.yaml"),
+    ),
+    (
         "eu-rfg-2016-631-ppm-type-b-c.yaml",
         include_str!("../../rules/eu-rfg-2016-631-ppm-type-b-c.yaml"),
     ),
@@ -55,6 +59,10 @@ pub const SHIPPED: &[(&str, &str)] = &[
     (
         "nerc-prc-024-3.yaml",
         include_str!("../../rules/nerc-prc-024-3.yaml"),
+    ),
+    (
+        "nerc-prc-029-1-phase-jump.yaml",
+        include_str!("../../rules/nerc-prc-029-1-phase-jump.yaml"),
     ),
     (
         "reactive-current-european-transmission.yaml",

@@ -19,6 +19,7 @@ pub mod params;
 pub mod realisation;
 pub mod registry;
 pub mod result;
+pub mod ride;
 pub mod schema;
 pub mod spec;
 pub mod yaml;

@@ -23,6 +23,14 @@ macro_rules! check_types {
             ReactiveCurrent(reactive_current::ReactiveCurrentSpec) = "reactive_current",
             /// Active power back to a fraction of pre-fault within a time.
             ActivePowerRecovery(active_power_recovery::ActivePowerRecoverySpec) = "active_power_recovery",
+            /// Ride through positive-sequence phase-angle jumps up to a size.
+            PhaseJump(phase_jump::PhaseJumpSpec) = "phase_jump",
+            /// Ride through a number of disturbances within a time window.
+            ConsecutiveDisturbances(consecutive::ConsecutiveSpec) = "consecutive_disturbances",
+            /// "Below (above) f Hz for up to d s" rows of frequency ride-through.
+            FrequencyTable(frequency_table::FrequencyTableSpec) = "frequency_table",
+            /// Ride through a rate of change of frequency up to a limit.
+            Rocof(rocof::RocofSpec) = "rocof",
         }
     };
 }
@@ -65,6 +73,16 @@ pub enum Unit {
     Pu,
     #[serde(rename = "s")]
     S,
+    /// Degrees (phase angle).
+    #[serde(rename = "deg")]
+    Deg,
+    #[serde(rename = "Hz")]
+    Hz,
+    #[serde(rename = "Hz/s")]
+    HzPerS,
+    /// A number of disturbances.
+    #[serde(rename = "count")]
+    Count,
 }
 
 impl Unit {
@@ -72,6 +90,10 @@ impl Unit {
         match self {
             Unit::Pu => "pu",
             Unit::S => "s",
+            Unit::Deg => "deg",
+            Unit::Hz => "Hz",
+            Unit::HzPerS => "Hz/s",
+            Unit::Count => "count",
         }
     }
 }

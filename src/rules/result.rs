@@ -228,6 +228,15 @@ pub struct CheckResult {
     /// Reactive current: the quasi-steady segments of a multi-step fault.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub segments: Vec<Segment>,
+    /// Checks of events other than voltage disturbances: the event's index
+    /// in the test's `phase_jumps` or frequency `events`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub event: Option<usize>,
+    /// Sequence rules: the disturbances counted and their spacing, s.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub counted: Vec<usize>,
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub spacing_s: Vec<f64>,
 }
 
 impl CheckResult {
@@ -266,6 +275,9 @@ impl CheckResult {
             reference_pu: None,
             time_from_s: None,
             segments: Vec::new(),
+            event: None,
+            counted: Vec::new(),
+            spacing_s: Vec::new(),
         }
     }
     pub fn verdict(mut self, v: Verdict, detail: impl Into<String>) -> Self {
@@ -407,6 +419,12 @@ pub struct TestResult {
     pub description: Option<String>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub analysis: Option<TestAnalysis>,
+    /// Steps of the positive-sequence voltage angle (waveform recordings).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub phase_jumps: Vec<crate::analysis::angle::PhaseJump>,
+    /// The frequency in brief (waveform recordings).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub frequency: Option<crate::analysis::angle::FrequencySummary>,
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]

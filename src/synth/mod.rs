@@ -129,6 +129,9 @@ pub struct SynthSpec {
     /// step is the recovery. Empty: the fault of `fault_start_s`,
     /// `fault_duration_s` and `residual_pu`.
     pub steps: Vec<(f64, f64)>,
+    /// Grid frequency `(time s, Hz)`, linear between the points; empty:
+    /// the nominal frequency throughout.
+    pub frequency_profile: Vec<(f64, f64)>,
     /// `Acb`: the file's b and c channels hold phases c and b.
     pub phase_order: crate::model::PhaseOrder,
 }
@@ -175,6 +178,7 @@ impl SynthSpec {
             station: DEFAULT_STATION.into(),
             device: DEFAULT_DEVICE.into(),
             steps: Vec::new(),
+            frequency_profile: Vec::new(),
             phase_order: crate::model::PhaseOrder::Abc,
         }
     }
@@ -392,7 +396,7 @@ impl Output<'_> {
     ) {
         let spec = self.spec;
         let acb = spec.phase_order == crate::model::PhaseOrder::Acb;
-        let rot = Complex64::from_polar(1.0, self.w * t);
+        let rot = Complex64::from_polar(1.0, phase_at(&spec.frequency_profile, self.w, t));
         let inst = |x: Complex64| SQRT_2 * (x * rot).re;
         let mut pv = [0.0; 3];
         for k in 0..3 {
@@ -436,6 +440,31 @@ impl Output<'_> {
         vals[1] = s.re + noise();
         vals[2] = s.im + noise();
     }
+}
+
+/// The phase `2π·∫f dt` at `t` of a piecewise-linear frequency profile
+/// (`w·t` for an empty one; `w` the nominal angular frequency).
+fn phase_at(profile: &[(f64, f64)], w: f64, t: f64) -> f64 {
+    let (Some(first), Some(last)) = (profile.first(), profile.last()) else {
+        return w * t;
+    };
+    let tau = std::f64::consts::TAU;
+    // Cycles up to t: the first value until the first point, the area of
+    // each trapezoid, the last value after the last point.
+    let mut cycles = first.1 * t.min(first.0);
+    for w2 in profile.windows(2) {
+        let ((a, fa), (b, fb)) = (w2[0], w2[1]);
+        if t <= a {
+            break;
+        }
+        let e = t.min(b);
+        let fe = fa + (fb - fa) * (e - a) / (b - a);
+        cycles += 0.5 * (fa + fe) * (e - a);
+    }
+    if t > last.0 {
+        cycles += last.1 * (t - last.0);
+    }
+    tau * cycles
 }
 
 /// Values of one sample in the file's units: waveform layout

@@ -14,7 +14,7 @@ use std::f64::consts::{PI, SQRT_2};
 
 /// Analyses per-unit waveforms held in memory. `cols` are va, vb, vc and
 /// optionally ia, ib, ic, sampled at `fs`.
-fn analyse_memory(cols: &[Vec<f64>], fs: f64, f_nom: f64) -> Analysed {
+pub(crate) fn analyse_memory(cols: &[Vec<f64>], fs: f64, f_nom: f64) -> Analysed {
     let keys = [
         ChannelKey::Va,
         ChannelKey::Vb,

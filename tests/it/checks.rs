@@ -23,6 +23,8 @@ struct Sig {
     v2: Option<(Signal, Signal)>,
     /// Waveform deviation `|x[n] − x[n−N]|` (marks inception and clearance).
     dev: Option<Signal>,
+    /// Positive-sequence angle against the 50 Hz reference, radians.
+    angle: Option<Signal>,
     currents: bool,
 }
 
@@ -36,6 +38,7 @@ impl Sig {
             status: None,
             v2: None,
             dev: None,
+            angle: None,
             currents: true,
         }
     }
@@ -60,6 +63,9 @@ impl Sig {
         }
         if let Some(d) = &self.dev {
             cols.push((Quantity::WaveDeviation, t.iter().map(|x| d(*x)).collect()));
+        }
+        if let Some(a) = &self.angle {
+            cols.push((Quantity::V1Angle, t.iter().map(|x| a(*x)).collect()));
         }
         if let Some((v2, iq2)) = &self.v2 {
             cols.push((Quantity::V2, t.iter().map(|x| v2(*x)).collect()));
@@ -1054,4 +1060,381 @@ fn realisation_uses_the_extreme_and_inception_to_clearance() {
     let e: Expect = serde_saphyr::from_str("{ duration_s: 0.3 }").unwrap();
     let out = engine::evaluate(&s.series(), &r, &detection_settings(&r, 50.0), Some(&e));
     assert_eq!(out.checks[0].reason, Some(Reason::NotAsPlanned));
+}
+
+// ------------------------------------------------ phase jumps, sequences, frequency
+//
+// The angle series is the positive-sequence angle against the 50 Hz
+// reference (radians): a phase jump of J degrees at t0 is a step of J·π/180;
+// a frequency f(t) gives the angle 2π·∫(f − 50) dt.
+
+/// A step of `deg` degrees at `at` (and back at `back`, if given).
+fn jump(deg: f64, at: f64, back: Option<f64>) -> Option<Signal> {
+    let j = deg.to_radians();
+    Some(Box::new(move |t| {
+        if t >= at && back.is_none_or(|b| t < b) {
+            j
+        } else {
+            0.0
+        }
+    }))
+}
+
+const JUMP: &str = "  - { id: pj, type: phase_jump, ride_through_deg: 25, trip_window_s: 0.5 }\n";
+
+#[test]
+fn phase_jump_paths() {
+    let r = rules(JUMP);
+    let flat = |a: Option<Signal>| {
+        let mut s = Sig::new(|_| 1.0);
+        s.angle = a;
+        s.status = Some(Box::new(|_| 1.0));
+        s
+    };
+    // No angle in the recording (RMS-level values): inconclusive.
+    let c = one(&Sig::new(|_| 1.0), &r);
+    assert_eq!(c.reason, Some(Reason::MissingChannel), "{c:?}");
+    assert_eq!(c.verdict, Verdict::Inconclusive);
+    // A constant angle: no jump, not applicable.
+    let c = one(&flat(Some(Box::new(|_| 0.3))), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::NotApplicable, Some(Reason::NotTriggered))
+    );
+    // 20° at 1.0 s that stays, no trip: pass, margin 25 − 20 = 5°.
+    let c = one(&flat(jump(20.0, 1.0, None)), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Pass, Some(Reason::NoTrip)),
+        "{c:?}"
+    );
+    assert!(
+        close(c.measured, 20.0, 0.01) && close(c.margin, 5.0, 0.01),
+        "{c:?}"
+    );
+    assert!(close(c.at_s, 1.0, 0.001), "{c:?}");
+    // 20° and a trip 0.2 s later (inside the 0.5 s window): fail; the
+    // connection check follows it.
+    let mut s = flat(jump(20.0, 1.0, None));
+    s.status = status_open_at(1.2);
+    let all = run_all(&s, &r);
+    let c = all.iter().find(|c| c.id == "pj").unwrap();
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Fail, Some(Reason::TripInsideZone)),
+        "{c:?}"
+    );
+    assert!(close(c.margin, -5.0, 0.01), "{c:?}");
+    let conn = all.iter().find(|c| c.id == "connection").unwrap();
+    assert_eq!(
+        (conn.verdict, conn.reason),
+        (Verdict::Fail, Some(Reason::TripInsideZone)),
+        "{conn:?}"
+    );
+    // 40° (beyond 25°) and a trip: permitted, margin 40 − 25 = 15°; the
+    // connection check passes the trip.
+    let mut s = flat(jump(40.0, 1.0, None));
+    s.status = status_open_at(1.2);
+    let all = run_all(&s, &r);
+    let c = all.iter().find(|c| c.id == "pj").unwrap();
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Pass, Some(Reason::PermittedTrip)),
+        "{c:?}"
+    );
+    assert!(close(c.margin, 15.0, 0.01), "{c:?}");
+    let conn = all.iter().find(|c| c.id == "connection").unwrap();
+    assert_eq!(
+        (conn.verdict, conn.reason),
+        (Verdict::Pass, Some(Reason::PermittedTrip)),
+        "{conn:?}"
+    );
+    // 40° and no trip: rode through beyond the limit.
+    let c = one(&flat(jump(40.0, 1.0, None)), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Pass, Some(Reason::RodeThroughBeyondZone))
+    );
+    // A trip a second after the window: not the jump's; the connection
+    // check fails it as a trip with no event under way.
+    let mut s = flat(jump(20.0, 1.0, None));
+    s.status = status_open_at(2.0);
+    let all = run_all(&s, &r);
+    let c = all.iter().find(|c| c.id == "pj").unwrap();
+    assert_eq!(c.reason, Some(Reason::NoTrip), "{c:?}");
+    let conn = all.iter().find(|c| c.id == "connection").unwrap();
+    assert_eq!(
+        conn.reason,
+        Some(Reason::TripOutsideDisturbance),
+        "{conn:?}"
+    );
+    // A jump 0.2 s before the recording ends (3 s): the 0.5 s window is not
+    // covered, inconclusive.
+    let c = one(&flat(jump(20.0, 2.8, None)), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Inconclusive, Some(Reason::InsufficientData))
+    );
+    // Tripped before the jump.
+    let mut s = flat(jump(20.0, 1.0, None));
+    s.status = status_open_at(0.5);
+    let c = one(&s, &r);
+    assert_eq!(c.reason, Some(Reason::AlreadyTripped), "{c:?}");
+    // Neither status nor current: no trip can be seen.
+    let mut s = flat(jump(20.0, 1.0, None));
+    s.status = None;
+    s.currents = false;
+    let c = one(&s, &r);
+    assert_eq!(c.reason, Some(Reason::TripNotVisible), "{c:?}");
+    // +24° and back 45 ms later: the angle never settles for two cycles
+    // before the step back, and 24° is within 5° of the limit: its size
+    // cannot decide.
+    let all = run(&flat(jump(24.0, 1.0, Some(1.045))), &r);
+    assert_eq!(all[0].reason, Some(Reason::DepthUnresolved), "{all:?}");
+    // A step and the step back 0.3 s later: two jumps, +20° and −20°, the
+    // second measured against the first one's reference moved by it.
+    let all = run(&flat(jump(20.0, 1.0, Some(1.3))), &r);
+    assert_eq!(all.len(), 2, "{all:?}");
+    assert!(
+        close(all[1].measured, 20.0, 0.01) && all[1].event == Some(1),
+        "{all:?}"
+    );
+}
+
+const SEQ: &str = "  - { id: seq, type: consecutive_disturbances, count: 2, window_s: 5 }\n";
+
+/// Dips to 0.3 pu for 0.2 s from each start.
+fn dips(starts: &'static [f64]) -> Sig {
+    let mut s = Sig::new(move |t| {
+        if starts.iter().any(|a| (*a..*a + 0.2).contains(&t)) {
+            0.3
+        } else {
+            1.0
+        }
+    });
+    s.dur = 8.0;
+    s.status = Some(Box::new(|_| 1.0));
+    s
+}
+
+#[test]
+fn consecutive_disturbance_paths() {
+    let r = rules(SEQ);
+    // No disturbance: not applicable.
+    let c = one(&dips(&[]), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::NotApplicable, Some(Reason::NotTriggered))
+    );
+    // Dips at 1.0 and 2.0 s, no trip: pass, two counted, spaced 1.0 s
+    // (each start is the first point below 0.9 pu).
+    let c = one(&dips(&[1.0, 2.0]), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Pass, Some(Reason::NoTrip)),
+        "{c:?}"
+    );
+    assert_eq!(c.measured, Some(2.0));
+    assert!(
+        c.spacing_s.len() == 1 && (c.spacing_s[0] - 1.0).abs() < 0.002,
+        "{c:?}"
+    );
+    // A trip during the second: fail.
+    let mut s = dips(&[1.0, 2.0]);
+    s.status = status_open_at(2.1);
+    let c = one(&s, &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Fail, Some(Reason::TripInsideZone)),
+        "{c:?}"
+    );
+    assert_eq!(c.measured, Some(2.0));
+    // One dip, or the second after the 5 s window: fewer than the rule asks.
+    for starts in [&[1.0][..], &[1.0, 6.5][..]] {
+        let c = one(&dips(Box::leak(starts.to_vec().into_boxed_slice())), &r);
+        assert_eq!(
+            (c.verdict, c.reason),
+            (Verdict::Inconclusive, Some(Reason::InsufficientData)),
+            "{starts:?} {c:?}"
+        );
+    }
+    // Tripped before the first; no trip visible.
+    let mut s = dips(&[1.0, 2.0]);
+    s.status = status_open_at(0.5);
+    assert_eq!(one(&s, &r).reason, Some(Reason::AlreadyTripped));
+    let mut s = dips(&[1.0, 2.0]);
+    s.status = None;
+    s.currents = false;
+    assert_eq!(one(&s, &r).reason, Some(Reason::TripNotVisible));
+}
+
+/// The angle of a frequency `f(t)` against 50 Hz, integrated at 1 ms.
+fn angle_of(f: impl Fn(f64) -> f64 + 'static) -> Option<Signal> {
+    let n = 20_001;
+    let mut acc = Vec::with_capacity(n);
+    let mut a = 0.0;
+    for k in 0..n {
+        acc.push(a);
+        let t = k as f64 * DT;
+        a += std::f64::consts::TAU * (f(t + DT / 2.0) - 50.0) * DT;
+    }
+    Some(Box::new(move |t| {
+        acc[((t / DT).round() as usize).min(n - 1)]
+    }))
+}
+
+/// Frequency `low` Hz from `from` to `to` s, 50 Hz otherwise, with 0.1 s
+/// linear ramps at both ends.
+fn excursion(low: f64, from: f64, to: f64) -> impl Fn(f64) -> f64 {
+    move |t| {
+        let ramp = 0.1;
+        if t < from || t > to + ramp {
+            50.0
+        } else if t < from + ramp {
+            50.0 + (low - 50.0) * (t - from) / ramp
+        } else if t <= to {
+            low
+        } else {
+            low + (50.0 - low) * (t - to) / ramp
+        }
+    }
+}
+
+const FTABLE: &str = "  - { id: f-low, type: frequency_table, side: below, rows: [{ beyond_hz: 49.5, max_s: 1800 }, { beyond_hz: 48.0, max_s: 1.0 }] }\n";
+
+fn freq_sig(f: impl Fn(f64) -> f64 + 'static, dur: f64, trip: Option<f64>) -> Sig {
+    let mut s = Sig::new(|_| 1.0);
+    s.dur = dur;
+    s.angle = angle_of(f);
+    s.status = match trip {
+        Some(at) => status_open_at(at),
+        None => Some(Box::new(|_| 1.0)),
+    };
+    s
+}
+
+#[test]
+fn frequency_table_paths() {
+    let r = rules(FTABLE);
+    assert_eq!(
+        one(&Sig::new(|_| 1.0), &r).reason,
+        Some(Reason::MissingChannel)
+    );
+    // 50 Hz throughout: not applicable.
+    let c = one(&freq_sig(|_| 50.0, 5.0, None), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::NotApplicable, Some(Reason::NotTriggered)),
+        "{c:?}"
+    );
+    // 49 Hz from 1.0 to 2.0 s (below 49.5, never below 48), no trip: pass.
+    let c = one(&freq_sig(excursion(49.0, 1.0, 2.0), 5.0, None), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Pass, Some(Reason::NoTrip)),
+        "{c:?}"
+    );
+    // 47.5 Hz from 1.0 to 3.0 s: below 48 Hz from about 1.08 s, 1.0 s allowed.
+    // A trip at 1.6 s (0.5 s below 48 Hz): fail. A trip at 2.5 s (1.4 s
+    // below): permitted. No trip: rode through beyond the zone.
+    let low = || excursion(47.5, 1.0, 3.0);
+    let c = one(&freq_sig(low(), 5.0, Some(1.6)), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Fail, Some(Reason::TripInsideZone)),
+        "{c:?}"
+    );
+    let c = one(&freq_sig(low(), 5.0, Some(2.5)), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Pass, Some(Reason::PermittedTrip)),
+        "{c:?}"
+    );
+    let c = one(&freq_sig(low(), 5.0, None), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Pass, Some(Reason::RodeThroughBeyondZone)),
+        "{c:?}"
+    );
+    // 49 Hz from 1.0 s to the end of a 5 s recording: the 1800 s row is
+    // not covered, inconclusive.
+    let c = one(&freq_sig(excursion(49.0, 1.0, 99.0), 5.0, None), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Inconclusive, Some(Reason::InsufficientData)),
+        "{c:?}"
+    );
+    // Tripped before the excursion.
+    let c = one(&freq_sig(excursion(49.0, 1.0, 2.0), 5.0, Some(0.5)), &r);
+    assert_eq!(c.reason, Some(Reason::AlreadyTripped), "{c:?}");
+}
+
+const ROCOF: &str =
+    "  - { id: rocof, type: rocof, limit_hz_per_s: 1.0, window_s: 0.5, trip_window_s: 0.5 }\n";
+
+/// 50 Hz, then a ramp of `rate` Hz/s from 1.0 s for `len` s, then flat.
+fn ramp_f(rate: f64, len: f64) -> impl Fn(f64) -> f64 {
+    move |t| 50.0 + rate * (t - 1.0).clamp(0.0, len)
+}
+
+#[test]
+fn rocof_paths() {
+    let r = rules(ROCOF);
+    assert_eq!(
+        one(&Sig::new(|_| 1.0), &r).reason,
+        Some(Reason::MissingChannel)
+    );
+    let c = one(&freq_sig(|_| 50.0, 4.0, None), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::NotApplicable, Some(Reason::NotTriggered))
+    );
+    // −0.5 Hz/s for 1 s: within 1 Hz/s. No trip: pass, margin 0.5 Hz/s.
+    let c = one(&freq_sig(ramp_f(-0.5, 1.0), 4.0, None), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Pass, Some(Reason::NoTrip)),
+        "{c:?}"
+    );
+    assert!(
+        close(c.measured, 0.5, 0.01) && close(c.margin, 0.5, 0.01),
+        "{c:?}"
+    );
+    // The same with a trip at 1.5 s: fail.
+    let c = one(&freq_sig(ramp_f(-0.5, 1.0), 4.0, Some(1.5)), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Fail, Some(Reason::TripInsideZone)),
+        "{c:?}"
+    );
+    // −2 Hz/s for 1 s (to 48 Hz): over 0.5 s the ROCOF is 2 Hz/s on the
+    // ramp's middle half second, beyond 1 Hz/s. A trip at 1.8 s: permitted;
+    // no trip: rode through beyond.
+    let c = one(&freq_sig(ramp_f(-2.0, 1.0), 4.0, Some(1.8)), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Pass, Some(Reason::PermittedTrip)),
+        "{c:?}"
+    );
+    assert!(close(c.measured, 2.0, 0.01), "{c:?}");
+    let c = one(&freq_sig(ramp_f(-2.0, 1.0), 4.0, None), &r);
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Pass, Some(Reason::RodeThroughBeyondZone)),
+        "{c:?}"
+    );
+    // A ramp that ends 0.2 s before the recording does: the 0.5 s trip
+    // window is not covered.
+    let c = one(
+        &freq_sig(move |t| 50.0 - 0.5 * (t - 2.5).clamp(0.0, 1.0), 3.7, None),
+        &r,
+    );
+    assert_eq!(
+        (c.verdict, c.reason),
+        (Verdict::Inconclusive, Some(Reason::InsufficientData)),
+        "{c:?}"
+    );
+    // Tripped before.
+    let c = one(&freq_sig(ramp_f(-0.5, 1.0), 4.0, Some(0.5)), &r);
+    assert_eq!(c.reason, Some(Reason::AlreadyTripped), "{c:?}");
 }

@@ -266,6 +266,37 @@ fn designed() -> Designed {
     ]
 }
 
+/// The sample tests of events other than dips (T15–T17).
+fn designed_events() -> Designed {
+    vec![
+        (
+            // 20° phase jump (within 25°), trip 0.3 s later.
+            "T15",
+            "fail",
+            vec![
+                ("phase-jump", "fail", "trip_inside_zone"),
+                ("connection", "fail", "trip_inside_zone"),
+            ],
+        ),
+        (
+            "T16",
+            "pass",
+            vec![("repeated", "pass", "no_trip"), ("lvrt", "pass", "no_trip")],
+        ),
+        (
+            // 48.8 Hz, trip at 4 s: inside the 30 min range; 0.5 Hz/s.
+            "T17",
+            "fail",
+            vec![
+                ("f-low", "fail", "trip_inside_zone"),
+                ("f-high", "not_applicable", "not_triggered"),
+                ("rocof", "fail", "trip_inside_zone"),
+                ("connection", "fail", "trip_inside_zone"),
+            ],
+        ),
+    ]
+}
+
 #[test]
 fn sample_plan_gives_the_designed_verdicts() {
     // Each sample recording was built to show one verdict path
@@ -274,7 +305,8 @@ fn sample_plan_gives_the_designed_verdicts() {
     let run = sample_run();
     let (results, code) = (&run.results, run.code);
     assert_eq!(code, 1, "the sample plan contains failing tests by design");
-    let expected = designed();
+    let mut expected = designed();
+    expected.extend(designed_events());
     let tests = results["tests"].as_array().unwrap();
     assert_eq!(tests.len(), expected.len());
     for (id, verdict, checks) in expected {

@@ -52,14 +52,22 @@ fn the_pack_states_ratings_bases_requirements_and_settings() {
     assert_eq!(r["rules"]["path"], "rules/eu-rfg-ppm-type-d-example.yaml");
     // Every rule set as applied, with a copy and its figures in the pack.
     let sets = r["rule_sets"].as_array().unwrap();
-    assert_eq!(sets.len(), 2, "the plan's and the per-test duration tables");
+    // The plan's rule set and the per-test ones (duration tables, phase
+    // jump, repeated faults, frequency): sample-data/plan.yaml.
+    assert_eq!(sets.len(), 5);
     for s in sets {
         let copy = run.dir.path().join(s["copy"].as_str().unwrap());
         let bytes = std::fs::read(&copy).unwrap();
         let original = std::fs::read(root().join(s["path"].as_str().unwrap())).unwrap();
         assert_eq!(bytes, original, "{}", copy.display());
+        // Zone boundaries and current characteristics are drawn (phase-jump,
+        // sequence and frequency rules have no figure of their own).
         let figures = s["figures"].as_array().unwrap();
-        assert!(!figures.is_empty());
+        let drawable = s["checks"].as_array().unwrap().iter().any(|c| {
+            ["envelope", "duration_table", "reactive_current"]
+                .contains(&c["type"].as_str().unwrap())
+        });
+        assert_eq!(!figures.is_empty(), drawable, "{}", s["id"]);
         for fig in figures {
             let svg = std::fs::read_to_string(run.dir.path().join(fig.as_str().unwrap())).unwrap();
             assert!(svg.starts_with("<svg"), "{fig}");

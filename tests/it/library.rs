@@ -220,9 +220,13 @@ fn unchecked_numbers_are_marked_from_memory() {
     for (name, text) in holdfast::rules::library::SHIPPED {
         let r = load(name, &[]);
         assert!(!r.source.trim().is_empty(), "{name} has no source");
+        // Files whose numbers were checked say QUOTED (and mark anything
+        // else as an illustrative choice).
         if !name.starts_with("eu-hvdc") {
             assert!(
-                text.contains("from memory") || text.contains("FROM MEMORY"),
+                text.contains("from memory")
+                    || text.contains("FROM MEMORY")
+                    || (text.contains("QUOTED") && text.contains("illustrative")),
                 "{name}: unchecked numbers must say 'from memory'"
             );
         }
@@ -504,8 +508,16 @@ fn shipped_yaml_validates_against_the_shipped_schemas() {
             .collect();
         assert!(errs.is_empty(), "{}: {errs:#?}", p.display());
     }
+    // Sample data: plans, and the demo rule set (its first line names its schema).
     for p in yaml_files(&root().join("sample-data")) {
-        let errs: Vec<String> = plan_v
+        let text = std::fs::read_to_string(&p).unwrap();
+        let v = if text.starts_with("# yaml-language-server: $schema=../schemas/rules.schema.json")
+        {
+            &rules_v
+        } else {
+            &plan_v
+        };
+        let errs: Vec<String> = v
             .iter_errors(&as_json(&p))
             .map(|e| format!("{e} at {}", e.instance_path))
             .collect();
@@ -532,4 +544,82 @@ fn shipped_yaml_validates_against_the_shipped_schemas() {
             "{n}"
         );
     }
+}
+
+/// A steady 1 pu series at 1 ms with the positive-sequence angle `angle(t)`
+/// (radians against 50 Hz) and the breaker opening at `trip`.
+fn angle_series(angle: impl Fn(f64) -> f64, trip: f64, len: f64) -> Series {
+    let n = (len / 1e-3) as usize + 1;
+    let t: Vec<f64> = (0..n).map(|k| k as f64 * 1e-3).collect();
+    let cols = vec![
+        (Quantity::V1, vec![1.0; n]),
+        (Quantity::V1Angle, t.iter().map(|x| angle(*x)).collect()),
+        (
+            Quantity::Status,
+            t.iter()
+                .map(|x| if *x >= trip { 0.0 } else { 1.0 })
+                .collect(),
+        ),
+    ];
+    Series::from_columns(t, cols).unwrap()
+}
+
+fn event_verdict(r: &RuleSet, id: &str, s: &Series) -> Verdict {
+    let det = detection_settings(r, 50.0);
+    let out = engine::evaluate(s, r, &det, None);
+    let c: Vec<_> = out.checks.iter().filter(|c| c.id == id).collect();
+    assert!(!c.is_empty(), "{id}: {:#?}", out.checks);
+    Verdict::combine(c.iter().map(|c| c.verdict))
+}
+
+#[test]
+fn nerc_prc_029_phase_jump_limit_is_25_degrees() {
+    // PRC-029-1 R1 (quoted): a trip is permitted for a jump of more than 25°.
+    // A jump 1° either side of it at 1 s, the breaker opening 0.2 s later.
+    let r = load("nerc-prc-029-1-phase-jump.yaml", &[]);
+    let step = |deg: f64| move |t: f64| if t >= 1.0 { deg.to_radians() } else { 0.0 };
+    assert_eq!(
+        event_verdict(&r, "phase-jump", &angle_series(step(24.0), 1.2, 3.0)),
+        Verdict::Fail
+    );
+    assert_eq!(
+        event_verdict(&r, "phase-jump", &angle_series(step(26.0), 1.2, 3.0)),
+        Verdict::Pass
+    );
+    assert_eq!(
+        event_verdict(&r, "phase-jump", &angle_series(step(-26.0), 1.2, 3.0)),
+        Verdict::Pass
+    );
+}
+
+#[test]
+fn eu_rfg_frequency_ranges_and_rocof() {
+    // RfG Art. 13 (from memory): below 49.0 Hz the unit rides through for
+    // 30 min, below 47.5 Hz it may trip; ROCOF withstand 2 Hz/s over 0.5 s.
+    // The angle of a frequency f(t): 2π·∫(f − 50) dt, integrated at 1 ms.
+    let r = load("eu-rfg-2016-631-frequency.yaml", &[]);
+    let of = |f: &dyn Fn(f64) -> f64| {
+        let mut acc = vec![0.0];
+        for k in 0..6000 {
+            let t = k as f64 * 1e-3;
+            let next = acc[k] + std::f64::consts::TAU * (f(t + 5e-4) - 50.0) * 1e-3;
+            acc.push(next);
+        }
+        move |t: f64| acc[((t / 1e-3).round() as usize).min(6000)]
+    };
+    // 48.8 Hz from 1 s (a 0.2 Hz/s approach), a trip at 3 s: inside the
+    // 30 min range, fail. 47.0 Hz (below 47.5) reached at 1.6 s, a trip at
+    // 3 s: permitted.
+    let low = |to: f64| move |t: f64| 50.0 + (to - 50.0) * ((t - 1.0) / 0.6).clamp(0.0, 1.0);
+    let s = angle_series(of(&low(48.8)), 3.0, 5.0);
+    assert_eq!(event_verdict(&r, "f-low", &s), Verdict::Fail);
+    let s = angle_series(of(&low(47.0)), 3.0, 5.0);
+    assert_eq!(event_verdict(&r, "f-low", &s), Verdict::Pass);
+    // ROCOF 1.5 Hz/s for 1 s with a trip at 1.8 s: within 2 Hz/s, fail;
+    // 2.5 Hz/s: beyond, the trip is permitted.
+    let rocof = |rate: f64| move |t: f64| 50.0 - rate * (t - 1.0).clamp(0.0, 1.0);
+    let s = angle_series(of(&rocof(1.5)), 1.8, 5.0);
+    assert_eq!(event_verdict(&r, "rocof", &s), Verdict::Fail);
+    let s = angle_series(of(&rocof(2.5)), 1.8, 5.0);
+    assert_eq!(event_verdict(&r, "rocof", &s), Verdict::Pass);
 }

@@ -5,6 +5,7 @@
 mod common;
 
 mod analysis;
+mod angle;
 mod checks;
 mod cli_hostile;
 mod cli_inputs;
