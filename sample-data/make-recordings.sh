@@ -33,3 +33,10 @@ s --out $d/t14-comtrade-single-phase.cff --duration 2.5 --residuals 0.25,1.0,1.0
 s --out $d/t15-phase-jump-trip.csv    --duration 2.5 --residual 1.0 --fault-duration 5 --phase-jump 20 --trip-at 0.8 --status
 s --out $d/t16-repeated-faults.csv    --duration 3.0 --steps 0.5:0.4,0.7:1.0,1.5:0.4,1.7:1.0 --status
 s --out $d/t17-frequency-trip.csv     --duration 5.0 --residual 1.0 --frequency-profile 1.0:50,3.4:48.8 --trip-at 4.0 --status
+# Simulated twins for `holdfast validate` (sample-data/validation-rule.yaml):
+# T01 as an RMS-level simulation with a slightly slower, slightly stronger
+# reactive current controller; T02 as a waveform simulation with a slightly
+# higher negative-sequence gain.
+m=sample-data/simulations
+s --out $m/t01-deep-symmetrical-sim.csv --duration 2.5 --residual 0.2 --fault-duration 0.25 --iq-tau 0.008 --k-gain 2.1 --layout rms --sample-rate 1000 --harmonics "" --noise 0 --seed 2
+s --out $m/t02-unbalanced-sim.csv       --duration 2.5 --residuals 0.5,0.5,1.0 --fault-duration 0.2 --k2-gain 2.2 --noise 0 --harmonics "" --seed 2

@@ -36,6 +36,8 @@ pub enum Command {
     Rules(RulesArgs),
     /// Work with test plans.
     Plan(PlanArgs),
+    /// Compare a simulation with the measurement of the same test (model validation).
+    Validate(Box<ValidateArgs>),
     /// Print a shell completion script (bash, zsh, fish, elvish, powershell).
     #[command(
         after_help = "For bash: holdfast completions bash > ~/.local/share/bash-completion/completions/holdfast"
@@ -72,6 +74,42 @@ pub enum PlanCommand {
         after_help = "The plan is written to DIR/plan.yaml unless --out says otherwise; an existing file is kept unless --force. Fill in the values marked FILL IN, then run `holdfast check PLAN`."
     )]
     Init(PlanInitArgs),
+}
+
+#[derive(Args, Debug)]
+#[command(
+    after_help = "The two recordings are aligned on their disturbance starts (the alignment is stated in the report; --offset adds to it). Per window (pre-fault, fault and post-fault, each without its transient part) and quantity: ME, MAE and MXE in pu against the rule's limits. Writes validation.json (schemas/validation-results-v1.schema.json), validation.csv, validation.html and plots/ to --out.\nExit status: 0 every compared window passed, 1 some failed or could not be judged, 2 the input could not be used.",
+    allow_negative_numbers = true
+)]
+pub struct ValidateArgs {
+    /// The measured recording (CSV or COMTRADE; waveforms or RMS level).
+    pub measured: PathBuf,
+    /// The simulated recording of the same test.
+    pub simulated: PathBuf,
+    /// Validation rule (YAML; `holdfast rules schema --validation` prints its schema).
+    #[arg(long, value_name = "RULE.yaml")]
+    pub rules: PathBuf,
+    /// Seconds added to the automatic alignment (positive: the simulated
+    /// event is placed later).
+    #[arg(long, default_value_t = 0.0, value_name = "S")]
+    pub offset: f64,
+    #[command(flatten)]
+    pub ratings: RatingArgs,
+    #[command(flatten)]
+    pub map: MapArgs,
+    /// Channel mapping of the simulated recording, KEY=COLUMN, repeatable
+    /// (default: the --map of the measured one).
+    #[arg(long = "sim-map", value_name = "KEY=COLUMN")]
+    pub sim_map: Vec<String>,
+    /// Choose a parameter of the validation rule: NAME=VALUE, repeatable.
+    #[arg(long = "set", value_name = "NAME=VALUE")]
+    pub set: Vec<String>,
+    /// Directory for the validation pack.
+    #[arg(long, default_value = "holdfast-validation", value_name = "DIR")]
+    pub out: PathBuf,
+    /// Print validation.json to stdout instead of the summary.
+    #[arg(long)]
+    pub json: bool,
 }
 
 #[derive(Args, Debug)]
@@ -177,8 +215,13 @@ pub enum RulesCommand {
         #[arg(long = "set", value_name = "NAME=VALUE")]
         set: Vec<String>,
     },
-    /// Print the JSON Schema of the rule-set format.
-    Schema,
+    /// Print the JSON Schema of the rule-set format (or, with --validation,
+    /// of the validation rule format).
+    Schema {
+        /// The validation rule format instead.
+        #[arg(long)]
+        validation: bool,
+    },
     /// List the rule sets shipped with holdfast: title, source, parameters.
     List {
         /// As JSON (an array, one object per rule set).
@@ -512,4 +555,18 @@ pub fn parse_set(items: &[String]) -> Result<std::collections::BTreeMap<String, 
         out.insert(k.trim().to_string(), v);
     }
     Ok(out)
+}
+
+/// The command line as run, quoted where a shell would need it.
+pub fn command_line() -> String {
+    std::env::args()
+        .map(|a| {
+            if a.is_empty() || a.contains(|c: char| c.is_whitespace() || "'\"$`\\".contains(c)) {
+                format!("'{}'", a.replace('\'', "'\\''"))
+            } else {
+                a
+            }
+        })
+        .collect::<Vec<_>>()
+        .join(" ")
 }

@@ -45,3 +45,4 @@ pub mod report;
 pub mod rules;
 pub mod synth;
 pub mod text;
+pub mod validation;

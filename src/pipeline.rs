@@ -34,13 +34,17 @@ pub struct Job {
     pub options: ImportOptions,
     /// The plan's description and project fields.
     pub project: Option<crate::rules::result::ProjectInfo>,
+    /// Validation rules of the tests that name a simulation.
+    pub validations: Vec<crate::validation::spec::LoadedValidation>,
 }
 
-/// Where a test's figures go: SVG always, PNG copies when asked.
+/// Where a test's figures go: SVG always, PNG copies when asked; and
+/// where its validation files go (a folder per test).
 #[derive(Clone, Copy, Debug)]
 pub struct FigureOutput<'a> {
     pub dir: &'a Path,
     pub png: bool,
+    pub validation_dir: Option<&'a Path>,
 }
 
 /// What one test gives: its result and its figures.
@@ -114,6 +118,19 @@ pub fn run_test(
         }
     }
     notes.extend(outcome.notes.iter().cloned());
+    let validation = match &test.simulation {
+        Some(sim) => Some(validate_test(
+            test,
+            index,
+            job,
+            opts,
+            &analysed,
+            frequency_hz,
+            sim,
+            plots,
+        )?),
+        None => None,
+    };
     let analysis = crate::rules::result::TestAnalysis {
         frequency_hz,
         window_s: 1.0 / frequency_hz,
@@ -121,7 +138,78 @@ pub fn run_test(
     };
     let mut result = test_result(test, rules, &analysed.info, outcome, notes)?;
     result.analysis = Some(analysis);
+    result.validation = validation;
     Ok(Evidence { result, figures })
+}
+
+/// Validates the test's simulation against its recording and writes the
+/// validation files into `validation/NNN-ID/` of the pack.
+#[allow(clippy::too_many_arguments)]
+fn validate_test(
+    test: &ResolvedTest,
+    index: usize,
+    job: &Job,
+    opts: &ImportOptions,
+    analysed: &crate::analysis::Analysed,
+    frequency_hz: f64,
+    sim: &crate::plan::Simulation,
+    plots: Option<FigureOutput<'_>>,
+) -> Result<crate::rules::result::ValidationBrief, TestError> {
+    use crate::validation::run::{analyse_one, disturbances_of, results_of, Rec};
+    let rules = &job.validations[sim.rules];
+    let offset = sim.offset_s;
+    let sim = analyse_one(
+        &sim.file,
+        &sim.map,
+        opts,
+        job.ratings,
+        Some(frequency_hz),
+        rules,
+    )?;
+    let dist = disturbances_of(&test.file, &analysed.series, rules, frequency_hz)?;
+    let meas = Rec {
+        series: &analysed.series,
+        disturbances: &dist,
+        frequency_hz,
+        path: &test.file,
+        sha256: analysed
+            .info
+            .files
+            .first()
+            .map(|f| f.1.as_str())
+            .unwrap_or(""),
+    };
+    let results = results_of(rules, &meas, &sim.rec(), offset)?;
+    let folder = format!(
+        "validation/{:03}-{}",
+        index + 1,
+        crate::text::file_safe(&test.id)
+    );
+    if let Some(dir) = plots.and_then(|p| p.validation_dir) {
+        let out = dir.join(folder.trim_start_matches("validation/"));
+        report::validation::write_files(
+            &out,
+            &results,
+            &analysed.series,
+            &sim.analysed.series,
+            &rules.text,
+        )
+        .map_err(TestError::Output)?;
+    }
+    Ok(crate::rules::result::ValidationBrief {
+        verdict: results.comparison.verdict,
+        rules: results.rules.id.clone().unwrap_or_default(),
+        simulated: results.simulated.clone(),
+        shift_s: results.comparison.alignment.shift_s,
+        report: format!("{folder}/validation.html"),
+        failed: results
+            .comparison
+            .rows
+            .iter()
+            .filter(|r| r.verdict != crate::rules::result::Verdict::Pass)
+            .map(|r| format!("{} {}", r.window.name(), r.quantity.name()))
+            .collect(),
+    })
 }
 
 /// Draws the figures of one test (SVG, and PNG when asked).
@@ -263,6 +351,7 @@ fn test_result(
             .map(|a| a.0.clone())
             .unwrap_or_default(),
         frequency: outcome.angle.as_ref().map(|a| a.1),
+        validation: None,
     })
 }
 
@@ -350,7 +439,7 @@ pub fn run_job(
         tests,
         unit: job.unit_name.clone(),
         generated_utc: Some(chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true)),
-        command_line: Some(command_line()),
+        command_line: Some(crate::cli::command_line()),
         caution: Some(CAUTION.into()),
         project: job.project.clone(),
         ratings: job
@@ -367,26 +456,17 @@ pub fn run_job(
     Ok(Run { results, figures })
 }
 
-fn command_line() -> String {
-    std::env::args()
-        .map(|a| {
-            if a.is_empty() || a.contains(|c: char| c.is_whitespace() || "'\"$`\\".contains(c)) {
-                format!("'{}'", a.replace('\'', "'\\''"))
-            } else {
-                a
-            }
-        })
-        .collect::<Vec<_>>()
-        .join(" ")
-}
-
 /// Every file a job reads: plan, rule sets, recordings and their COMTRADE
 /// data files (an `--out` that holds one is refused).
 pub fn inputs_of(job: &Job) -> Vec<PathBuf> {
     let mut v: Vec<PathBuf> = job.plan.iter().map(|(p, _)| p.clone()).collect();
     v.extend(job.rules.iter().map(|r| r.path.clone()));
+    v.extend(job.validations.iter().map(|r| r.path.clone()));
     for t in &job.tests {
         v.push(t.file.clone());
+        if let Some(s) = &t.simulation {
+            v.push(s.file.clone());
+        }
         if t.file
             .extension()
             .is_some_and(|e| e.eq_ignore_ascii_case("cfg"))

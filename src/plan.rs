@@ -34,6 +34,10 @@ pub struct Plan {
     /// `acb` (b and c are swapped for voltages and currents).
     #[serde(default)]
     pub phase_order: Option<crate::model::PhaseOrder>,
+    /// Validation rule for the tests that name a `simulation` (relative to
+    /// the plan).
+    #[serde(default)]
+    pub validation: Option<String>,
     pub tests: Vec<TestSpec>,
 }
 
@@ -167,6 +171,20 @@ pub struct TestSpec {
     /// Phase rotation of this recording's channels (over the plan's).
     #[serde(default)]
     pub phase_order: Option<crate::model::PhaseOrder>,
+    /// A simulation of this test to validate against the recording
+    /// (relative to the plan; same channel mapping).
+    #[serde(default)]
+    pub simulation: Option<String>,
+    /// Seconds added to the automatic alignment of the simulation.
+    #[serde(default)]
+    pub simulation_offset_s: Option<f64>,
+    /// Channel mapping of the simulation (default: the columns it names
+    /// are recognised as for a recording without a mapping).
+    #[serde(default)]
+    pub simulation_channels: Option<ChannelsSpec>,
+    /// A validation rule for this test instead of the plan's.
+    #[serde(default)]
+    pub validation: Option<String>,
 }
 
 impl ChannelsSpec {
@@ -293,6 +311,17 @@ impl ChannelsSpec {
     }
 }
 
+/// A test's simulation, resolved.
+#[derive(Clone, Debug)]
+pub struct Simulation {
+    pub file: PathBuf,
+    pub map: ChannelMap,
+    /// Seconds added to the automatic alignment.
+    pub offset_s: f64,
+    /// Index into [`LoadedPlan::validation_files`].
+    pub rules: usize,
+}
+
 /// One test, resolved: paths absolute-or-relative to the working directory.
 #[derive(Clone, Debug)]
 pub struct ResolvedTest {
@@ -303,6 +332,8 @@ pub struct ResolvedTest {
     /// Index into [`LoadedPlan::rule_files`].
     pub rules: usize,
     pub description: Option<String>,
+    /// A simulation to validate against this recording.
+    pub simulation: Option<Simulation>,
 }
 
 #[derive(Clone, Debug)]
@@ -313,6 +344,8 @@ pub struct LoadedPlan {
     pub ratings: Ratings,
     /// Rule sets with their parameter values: the plan's first, then per-test ones.
     pub rule_files: Vec<(PathBuf, BTreeMap<String, f64>)>,
+    /// Validation rules named by the plan and its tests.
+    pub validation_files: Vec<PathBuf>,
     pub tests: Vec<ResolvedTest>,
 }
 
@@ -370,6 +403,74 @@ fn expand(dir: &Path, id: &str, file: &str) -> Result<Vec<(String, PathBuf)>, St
         .collect())
 }
 
+/// Value problems of the unit's ratings, as (key, message).
+fn unit_problems(u: &UnitSpec) -> Vec<(&'static str, String)> {
+    let mut out = Vec::new();
+    if !(u.rated_voltage_kv > 0.0 && u.rated_voltage_kv.is_finite()) {
+        out.push((
+            "rated_voltage_kv",
+            format!("rated_voltage_kv {} must be positive", u.rated_voltage_kv),
+        ));
+    }
+    if !(u.rated_power_mva > 0.0 && u.rated_power_mva.is_finite()) {
+        out.push((
+            "rated_power_mva",
+            format!("rated_power_mva {} must be positive", u.rated_power_mva),
+        ));
+    }
+    if !(u.frequency_hz > 0.0 && u.frequency_hz <= 1000.0) {
+        out.push((
+            "frequency_hz",
+            format!(
+                "frequency_hz {} must be a nominal frequency such as 50 or 60",
+                u.frequency_hz
+            ),
+        ));
+    }
+    out
+}
+
+/// A test's simulation with its mapping and validation rule (added to
+/// `validation_files` once); a problem as (key, message).
+fn simulation_of(
+    t: &TestSpec,
+    plan: &Plan,
+    dir: &Path,
+    validation_files: &mut Vec<PathBuf>,
+) -> Result<Option<Simulation>, (&'static str, String)> {
+    let Some(sim) = &t.simulation else {
+        return Ok(None);
+    };
+    let Some(v) = t.validation.as_ref().or(plan.validation.as_ref()) else {
+        return Err((
+            "simulation",
+            "a simulation needs a validation rule: give `validation:` in the plan or the test"
+                .into(),
+        ));
+    };
+    let v = dir.join(v);
+    let rules = match validation_files.iter().position(|x| *x == v) {
+        Some(k) => k,
+        None => {
+            validation_files.push(v);
+            validation_files.len() - 1
+        }
+    };
+    let mut map = match &t.simulation_channels {
+        Some(c) => c
+            .to_map()
+            .map_err(|(key, m)| (key, format!("simulation_channels: {m}")))?,
+        None => ChannelMap::default(),
+    };
+    map.phase_order = t.phase_order.or(plan.phase_order);
+    Ok(Some(Simulation {
+        file: dir.join(sim),
+        map,
+        offset_s: t.simulation_offset_s.unwrap_or(0.0),
+        rules,
+    }))
+}
+
 /// Loads and validates a plan; all problems are reported at once.
 pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
     let (text, sha256) = yaml::read_text_hashed(path, "test plan")?;
@@ -386,30 +487,8 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
         }
         errs.push(e);
     };
-    let u = &plan.unit;
-    if !(u.rated_voltage_kv > 0.0 && u.rated_voltage_kv.is_finite()) {
-        err(
-            None,
-            "rated_voltage_kv",
-            format!("rated_voltage_kv {} must be positive", u.rated_voltage_kv),
-        );
-    }
-    if !(u.rated_power_mva > 0.0 && u.rated_power_mva.is_finite()) {
-        err(
-            None,
-            "rated_power_mva",
-            format!("rated_power_mva {} must be positive", u.rated_power_mva),
-        );
-    }
-    if !(u.frequency_hz > 0.0 && u.frequency_hz <= 1000.0) {
-        err(
-            None,
-            "frequency_hz",
-            format!(
-                "frequency_hz {} must be a nominal frequency such as 50 or 60",
-                u.frequency_hz
-            ),
-        );
+    for (key, m) in unit_problems(&plan.unit) {
+        err(None, key, m);
     }
     if plan.tests.is_empty() {
         err(None, "tests", "the plan has no tests".into());
@@ -419,6 +498,7 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
         err(None, key, m);
     }
     let mut rule_files = vec![(dir.join(&plan.rules), plan.parameters.clone())];
+    let mut validation_files: Vec<PathBuf> = Vec::new();
     let mut tests = Vec::new();
     let mut seen = std::collections::HashSet::new();
     for (i, t) in plan.tests.iter().enumerate() {
@@ -462,6 +542,13 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
         match defaults.merged(t.channels.as_ref()).to_map() {
             Ok(mut map) => {
                 map.phase_order = t.phase_order.or(plan.phase_order);
+                let simulation = match simulation_of(t, &plan, dir, &mut validation_files) {
+                    Ok(sim) => sim,
+                    Err((key, m)) => {
+                        err(Some(i), key, m);
+                        None
+                    }
+                };
                 for (id, file) in files {
                     tests.push(ResolvedTest {
                         map: map.clone(),
@@ -470,6 +557,7 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
                         expect: t.expect.clone(),
                         rules,
                         description: t.description.clone(),
+                        simulation: simulation.clone(),
                     });
                 }
             }
@@ -488,6 +576,7 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
         path: path.to_path_buf(),
         sha256,
         rule_files,
+        validation_files,
         tests,
     })
 }

@@ -61,6 +61,25 @@ fn load_rules(
     }
 }
 
+/// Loads every validation rule a plan names; all problems at once.
+fn load_validations(
+    files: &[PathBuf],
+) -> Result<Vec<crate::validation::spec::LoadedValidation>, InputErrors> {
+    let mut out = Vec::new();
+    let mut errs = Vec::new();
+    for f in files {
+        match crate::validation::spec::load(f, &Default::default()) {
+            Ok(v) => out.push(v),
+            Err(e) => errs.extend(e.0),
+        }
+    }
+    if errs.is_empty() {
+        Ok(out)
+    } else {
+        Err(InputErrors(errs))
+    }
+}
+
 /// Builds the job from the command line.
 pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
     let mut options = args.map.import_options()?;
@@ -101,6 +120,7 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
             }
             let lp = plan::load(input)?;
             let rules = load_rules(&lp.rule_files, &crate::cli::parse_set(&args.set)?)?;
+            let validations = load_validations(&lp.validation_files)?;
             options.threads = 0;
             Ok(Job {
                 plan: Some((lp.path.clone(), lp.sha256.clone())),
@@ -111,6 +131,7 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
                 project: lp.plan.project_info(),
                 tests: lp.tests,
                 options,
+                validations,
             })
         }
         Some(rp) => {
@@ -143,6 +164,7 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
                         expect: None,
                         rules: 0,
                         description: None,
+                        simulation: None,
                     }
                 })
                 .collect();
@@ -155,6 +177,7 @@ pub fn job_from_args(args: &CheckArgs) -> anyhow::Result<Job> {
                 tests,
                 options,
                 project: None,
+                validations: Vec::new(),
             })
         }
     }
@@ -164,6 +187,11 @@ pub fn run(args: &CheckArgs) -> anyhow::Result<ExitStatus> {
     let job = job_from_args(args)?;
     let pack = report::pack::PackWriter::begin(&args.out, &pipeline::inputs_of(&job))?;
     let plots = pack.subdir("plots")?;
+    let validation_dir = if job.validations.is_empty() {
+        None
+    } else {
+        Some(pack.subdir("validation")?)
+    };
     let run = pipeline::run_job(
         &job,
         args.jobs,
@@ -171,6 +199,7 @@ pub fn run(args: &CheckArgs) -> anyhow::Result<ExitStatus> {
         Some(pipeline::FigureOutput {
             dir: &plots,
             png: args.png,
+            validation_dir: validation_dir.as_deref(),
         }),
     )?;
     report::rule_sets::write(&pack, &job.rules)?;
@@ -191,6 +220,22 @@ pub fn run(args: &CheckArgs) -> anyhow::Result<ExitStatus> {
             std::env::var("TERM").ok().as_deref(),
         );
         write!(out, "{}", report::table::render(results, tty, colour))?;
+        for t in results.tests.iter().filter(|t| t.validation.is_some()) {
+            if let Some(v) = &t.validation {
+                writeln!(
+                    out,
+                    "Model validation {}: {}{} ({})",
+                    crate::text::line(&t.id),
+                    v.verdict.name().to_uppercase(),
+                    if v.failed.is_empty() {
+                        String::new()
+                    } else {
+                        format!(": {}", v.failed.join(", "))
+                    },
+                    v.report
+                )?;
+            }
+        }
         writeln!(
             out,
             "\nEvidence pack: {}",
@@ -198,7 +243,12 @@ pub fn run(args: &CheckArgs) -> anyhow::Result<ExitStatus> {
         )?;
         writeln!(out, "{CAUTION}")?;
     }
-    Ok(if results.verdict == Verdict::Pass {
+    let validated = results
+        .tests
+        .iter()
+        .filter_map(|t| t.validation.as_ref())
+        .all(|v| v.verdict == Verdict::Pass);
+    Ok(if results.verdict == Verdict::Pass && validated {
         ExitStatus::Success
     } else {
         ExitStatus::NotPassed

@@ -6,6 +6,7 @@ pub mod inspect;
 pub mod plan_init;
 pub mod rules;
 pub mod synth;
+pub mod validate;
 
 use crate::cli::{Cli, Command};
 
@@ -73,6 +74,7 @@ pub fn run(cli: Cli) -> anyhow::Result<ExitStatus> {
             }
             crate::cli::PlanCommand::Init(a) => plan_init::run(&a),
         },
+        Command::Validate(args) => validate::run(&args),
         Command::Completions { shell } => {
             let mut cmd = <crate::cli::Cli as clap::CommandFactory>::command();
             clap_complete::generate(shell, &mut cmd, "holdfast", &mut std::io::stdout());

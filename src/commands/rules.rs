@@ -8,6 +8,12 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<ExitStatus> {
     match &args.command {
         RulesCommand::Lint { file, set } => {
             let choices = set_choices(set)?;
+            // Read safely (regular files only, capped): it decides which
+            // format the file is.
+            let text = crate::rules::yaml::read_text(file, "rule set")?;
+            if crate::validation::spec::is_validation(&text) {
+                return lint_validation(file, &choices);
+            }
             let loaded = crate::rules::load_with(file, &choices)?;
             let r = &loaded.rules;
             // Written to a buffer first: ids and titles from the file are
@@ -35,8 +41,13 @@ pub fn run(args: &RulesArgs) -> anyhow::Result<ExitStatus> {
                 .write_all(crate::text::lines(&String::from_utf8_lossy(&out)).as_bytes())?;
             Ok(ExitStatus::Success)
         }
-        RulesCommand::Schema => {
-            let text = serde_json::to_string_pretty(&crate::rules::schema::rules_schema())?;
+        RulesCommand::Schema { validation } => {
+            let schema = if *validation {
+                crate::validation::spec::schema()
+            } else {
+                crate::rules::schema::rules_schema()
+            };
+            let text = serde_json::to_string_pretty(&schema)?;
             writeln!(std::io::stdout().lock(), "{text}")?;
             Ok(ExitStatus::Success)
         }
@@ -159,5 +170,44 @@ fn list(json: bool) -> anyhow::Result<ExitStatus> {
     } else {
         writeln!(out, "{}", crate::cli::CAUTION)?;
     }
+    Ok(ExitStatus::Success)
+}
+
+/// `rules lint` of a validation rule.
+fn lint_validation(
+    file: &std::path::Path,
+    choices: &crate::rules::params::Choices,
+) -> anyhow::Result<ExitStatus> {
+    let v = crate::validation::spec::load(file, choices)?;
+    let r = &v.rules;
+    let mut out: Vec<u8> = Vec::new();
+    writeln!(out, "{}: ok (validation rule)", file.display())?;
+    writeln!(out, "  id      {}", r.id)?;
+    writeln!(out, "  title   {}", r.title)?;
+    writeln!(out, "  source  {}", r.source)?;
+    let w = &r.windows;
+    writeln!(
+        out,
+        "  windows pre-fault {} s; fault without its first {} s; post-fault {} s without its first {} s",
+        w.prefault_s, w.fault_transient_s, w.post_s, w.post_transient_s
+    )?;
+    for p in &v.parameters {
+        writeln!(out, "  param   {}", param_line(p, true))?;
+    }
+    for l in &r.limits {
+        let f = |x: Option<f64>| x.map_or("–".to_string(), |v| format!("{v} pu"));
+        writeln!(
+            out,
+            "  limit   {:<4} {:<6} |ME| {}, MAE {}, MXE {}",
+            l.quantity.name(),
+            format!("{:?}", l.window).to_lowercase(),
+            f(l.me_pu),
+            f(l.mae_pu),
+            f(l.mxe_pu)
+        )?;
+    }
+    std::io::stdout()
+        .lock()
+        .write_all(crate::text::lines(&String::from_utf8_lossy(&out)).as_bytes())?;
     Ok(ExitStatus::Success)
 }

@@ -75,6 +75,8 @@ pub struct TestView {
     pub parameters: String,
     pub analysis: String,
     pub description: Option<String>,
+    /// Model validation: verdict, its class, the page inside the pack.
+    pub validation: Option<(&'static str, &'static str, String)>,
     pub worst: String,
 }
 
@@ -186,6 +188,8 @@ struct TestSection<'a> {
     t: &'a TestView,
     /// Where the figure files are, from the page.
     plots: &'a str,
+    /// The pack's folder, from the page ("" or "../").
+    base: &'a str,
 }
 
 #[derive(Template)]
@@ -219,7 +223,8 @@ pub fn path_html(p: &str) -> String {
     out
 }
 
-fn class(v: Verdict) -> &'static str {
+/// The CSS class of a verdict.
+pub fn class(v: Verdict) -> &'static str {
     match v {
         Verdict::Pass => "pass",
         Verdict::Fail => "fail",
@@ -293,6 +298,10 @@ fn test_view(k: usize, t: &TestResult, figures: Vec<RenderedFigure>, plan_rules:
             .join("; "),
         analysis: t.analysis.as_ref().map(analysis_text).unwrap_or_default(),
         description: t.description.clone(),
+        validation: t
+            .validation
+            .as_ref()
+            .map(|v| (label(v.verdict), class(v.verdict), v.report.clone())),
         worst,
     }
 }
@@ -700,9 +709,13 @@ pub fn write_pages(
     for (k, t) in results.tests.iter().enumerate() {
         let view = test_view(k, t, figures_of(figures, &t.id), &plan_rules);
         let section = |plots: &str| {
-            TestSection { t: &view, plots }
-                .render()
-                .with_context(|| format!("rendering the section of test {}", t.id))
+            TestSection {
+                t: &view,
+                plots,
+                base: plots.trim_end_matches("plots/"),
+            }
+            .render()
+            .with_context(|| format!("rendering the section of test {}", t.id))
         };
         report.write_all(section("plots/")?.as_bytes())?;
         let page_name = in_pack(k);

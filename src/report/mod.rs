@@ -9,6 +9,7 @@ pub mod rule_sets;
 pub mod summary_csv;
 pub mod table;
 pub mod tests_csv;
+pub mod validation;
 
 use crate::rules::registry::Unit;
 use crate::rules::result::Results;

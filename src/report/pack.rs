@@ -16,7 +16,7 @@ use std::path::{Path, PathBuf};
 pub const MARKER: &str = ".holdfast-pack";
 
 /// Names an earlier pack may hold (packs written before the marker existed).
-const PACK_NAMES: [&str; 8] = [
+const PACK_NAMES: [&str; 13] = [
     MARKER,
     "results.json",
     "summary.csv",
@@ -25,6 +25,11 @@ const PACK_NAMES: [&str; 8] = [
     "tests.csv",
     "index.html",
     "rules",
+    "tests",
+    "validation",
+    "validation.json",
+    "validation.csv",
+    "validation.html",
 ];
 
 /// A pack being written.

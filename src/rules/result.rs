@@ -425,6 +425,26 @@ pub struct TestResult {
     /// The frequency in brief (waveform recordings).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub frequency: Option<crate::analysis::angle::FrequencySummary>,
+    /// The validation of the test's simulation, where the plan names one.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub validation: Option<ValidationBrief>,
+}
+
+/// A test's model validation in brief (the whole of it in the pack's
+/// `validation/` folder).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]
+pub struct ValidationBrief {
+    pub verdict: Verdict,
+    /// Id of the validation rule.
+    pub rules: String,
+    pub simulated: HashedFile,
+    /// Added to the simulated times, s.
+    pub shift_s: f64,
+    /// The validation page inside the pack.
+    pub report: String,
+    /// The windows and quantities that did not pass.
+    #[serde(default)]
+    pub failed: Vec<String>,
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize, JsonSchema)]

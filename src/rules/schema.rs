@@ -8,7 +8,7 @@ use serde_json::{json, Value};
 const PARAM_REF: &str = r"^\$[A-Za-z_][A-Za-z0-9_]*$";
 
 /// Lets every numeric schema also accept a `"$parameter"` reference.
-fn allow_refs(v: &mut Value) {
+pub(crate) fn allow_refs(v: &mut Value) {
     match v {
         Value::Object(m) => {
             let is_number = match m.get("type") {

@@ -200,3 +200,25 @@ fn a_plan_of_800_tests_gets_a_small_index_and_small_pages() {
     let report = std::fs::read_to_string(out.join("report.html")).unwrap();
     assert_eq!(report.matches("<section class=\"test\"").count(), 800);
 }
+
+#[test]
+fn the_sample_plan_validates_its_paired_simulations() {
+    // sample-data/plan.yaml pairs T01 and T02 with simulations
+    // (sample-data/simulations) under sample-data/validation-rule.yaml.
+    let run = sample_run();
+    let tests = run.results["tests"].as_array().unwrap();
+    for id in ["T01", "T02"] {
+        let t = tests.iter().find(|t| t["id"] == id).unwrap();
+        let v = &t["validation"];
+        assert_eq!(v["verdict"], "pass", "{id}: {v}");
+        assert_eq!(v["rules"], "demo-model-validation");
+        let page = run.dir.path().join(v["report"].as_str().unwrap());
+        assert!(page.exists(), "{}", page.display());
+        let json = page.with_file_name("validation.json");
+        let r: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(json).unwrap()).unwrap();
+        assert_eq!(r["measured"]["sha256"], t["recording"]["sha256"]);
+    }
+    assert!(tests.iter().filter(|t| t["validation"].is_object()).count() == 2);
+    assert!(run.stdout.contains("Model validation T01: PASS"));
+}

@@ -508,12 +508,18 @@ fn shipped_yaml_validates_against_the_shipped_schemas() {
             .collect();
         assert!(errs.is_empty(), "{}: {errs:#?}", p.display());
     }
-    // Sample data: plans, and the demo rule set (its first line names its schema).
+    // Sample data: plans, the demo rule set and the validation rule (the
+    // first line names the schema).
+    let validation_v =
+        jsonschema::validator_for(&schema("schemas/validation.schema.json")).unwrap();
     for p in yaml_files(&root().join("sample-data")) {
         let text = std::fs::read_to_string(&p).unwrap();
-        let v = if text.starts_with("# yaml-language-server: $schema=../schemas/rules.schema.json")
-        {
+        let header =
+            |s: &str| text.starts_with(&format!("# yaml-language-server: $schema=../schemas/{s}"));
+        let v = if header("rules.schema.json") {
             &rules_v
+        } else if header("validation.schema.json") {
+            &validation_v
         } else {
             &plan_v
         };

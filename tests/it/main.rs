@@ -22,4 +22,5 @@ mod recorder_files;
 mod report;
 mod robustness;
 mod table_vs_envelope;
+mod validation;
 mod views;
