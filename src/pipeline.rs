@@ -246,7 +246,8 @@ fn draw(
         figures.push(RenderedFigure {
             quantity: fig.quantity.to_string(),
             title: fig.spec.title.clone(),
-            svg,
+            svg: String::new(),
+            svg_path,
             files,
         });
     }

@@ -16,12 +16,16 @@ use crate::rules::result::{
 use askama::Template;
 use std::io::Write;
 
-/// A rendered figure of a test.
+/// A rendered figure of a test. Its SVG is read back from `svg_path` when a
+/// page is written, so a run never holds every figure in memory.
 #[derive(Clone, Debug)]
 pub struct RenderedFigure {
     pub quantity: String,
     pub title: String,
+    /// The SVG inline in a page (filled when the page is written).
     pub svg: String,
+    /// The SVG file written by the run.
+    pub svg_path: std::path::PathBuf,
     /// File names in `plots/` (SVG, PNG).
     pub files: Vec<String>,
 }
@@ -654,15 +658,19 @@ fn fails_first(results: &Results) -> Vec<usize> {
     order
 }
 
-fn figures_of(figures: &super::FigureSet, id: &str) -> Vec<RenderedFigure> {
+/// The figures of a test with their SVG read back for inlining.
+fn figures_of(figures: &super::FigureSet, id: &str) -> anyhow::Result<Vec<RenderedFigure>> {
+    use anyhow::Context;
     figures
         .get(id)
         .cloned()
         .unwrap_or_default()
         .into_iter()
         .map(|mut x| {
-            x.svg = inline_svg(&x.svg);
-            x
+            let svg = std::fs::read_to_string(&x.svg_path)
+                .with_context(|| format!("reading figure {}", x.svg_path.display()))?;
+            x.svg = inline_svg(&svg);
+            Ok(x)
         })
         .collect()
 }
@@ -707,7 +715,7 @@ pub fn write_pages(
     pack.subdir("tests")?;
     let tool = trace(results, false).tool;
     for (k, t) in results.tests.iter().enumerate() {
-        let view = test_view(k, t, figures_of(figures, &t.id), &plan_rules);
+        let view = test_view(k, t, figures_of(figures, &t.id)?, &plan_rules);
         let section = |plots: &str| {
             TestSection {
                 t: &view,
