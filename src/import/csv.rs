@@ -131,17 +131,14 @@ fn fill(
     want: usize,
     path: &Path,
 ) -> Result<bool, InputError> {
-    // Returns true at end of file.
-    let start = buf.len();
-    buf.resize(start + want, 0);
-    let mut filled = start;
-    while filled < buf.len() {
-        match file.read(&mut buf[filled..]) {
-            Ok(0) => {
-                buf.truncate(filled);
-                return Ok(true);
-            }
-            Ok(n) => filled += n,
+    // Returns true at end of file. `read_to_end` reads into the spare
+    // capacity without zeroing it first.
+    buf.reserve(want);
+    let mut left = want as u64;
+    while left > 0 {
+        match file.by_ref().take(left).read_to_end(buf) {
+            Ok(0) => return Ok(true),
+            Ok(n) => left -= n as u64,
             Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
             Err(e) => {
                 return Err(InputError::new(path, format!("cannot read: {e}")));
@@ -255,6 +252,7 @@ const POW10: [f64; 23] = [
 /// accurately", PLDI 1990). Anything else goes to the general parser.
 #[inline]
 fn fast_decimal(b: &[u8]) -> Option<(f64, usize)> {
+    let n = b.len();
     let mut i = 0;
     let neg = match b.first() {
         Some(b'-') => {
@@ -268,33 +266,41 @@ fn fast_decimal(b: &[u8]) -> Option<(f64, usize)> {
         _ => false,
     };
     let mut mant: u64 = 0;
-    let mut digits = 0u32;
-    let mut frac = 0u32;
-    // `digits` counts all digits read, `sig` those from the first non-zero one.
-    let mut sig = 0u32;
-    while i < b.len() && b[i].is_ascii_digit() {
-        mant = mant.wrapping_mul(10).wrapping_add((b[i] - b'0') as u64);
-        digits += 1;
-        sig += u32::from(mant != 0);
+    let int_from = i;
+    while i < n {
+        let d = b[i].wrapping_sub(b'0');
+        if d > 9 {
+            break;
+        }
+        mant = mant.wrapping_mul(10).wrapping_add(u64::from(d));
         i += 1;
     }
-    if i < b.len() && b[i] == b'.' {
+    let mut digits = i - int_from;
+    let mut frac = 0usize;
+    if i < n && b[i] == b'.' {
         i += 1;
-        while i < b.len() && b[i].is_ascii_digit() {
-            mant = mant.wrapping_mul(10).wrapping_add((b[i] - b'0') as u64);
-            digits += 1;
-            sig += u32::from(mant != 0);
-            frac += 1;
+        let frac_from = i;
+        while i < n {
+            let d = b[i].wrapping_sub(b'0');
+            if d > 9 {
+                break;
+            }
+            mant = mant.wrapping_mul(10).wrapping_add(u64::from(d));
             i += 1;
         }
+        frac = i - frac_from;
+        digits += frac;
     }
-    if digits == 0 || sig > 19 || frac > 22 || mant >= (1u64 << 53) {
+    // More than 19 digits may have wrapped the mantissa (leading zeros
+    // included: such rare numbers take the general parser, which rounds
+    // them correctly too).
+    if digits == 0 || digits > 19 || frac > 22 || mant >= (1u64 << 53) {
         return None;
     }
-    if i < b.len() && matches!(b[i], b'e' | b'E' | b'n' | b'N' | b'i' | b'I') {
+    if i < n && matches!(b[i], b'e' | b'E' | b'n' | b'N' | b'i' | b'I') {
         return None;
     }
-    let v = mant as f64 / POW10[frac as usize];
+    let v = mant as f64 / POW10[frac];
     Some((if neg { -v } else { v }, i))
 }
 
@@ -1229,9 +1235,11 @@ impl Source for CsvSource {
         // Three stages overlap: a reader thread fills the next region (cut at
         // a line boundary), parser threads parse the current one in pieces,
         // and this thread checks time and hands the previous one to the sink.
+        // One parser more than cores: the reader (which also hashes) and
+        // this thread take turns with them.
         let threads = match self.opts.threads {
             0 => std::thread::available_parallelism()
-                .map(|n| n.get())
+                .map(|n| n.get() + 1)
                 .unwrap_or(1)
                 .clamp(1, 8),
             n => n,

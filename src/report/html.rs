@@ -740,7 +740,7 @@ pub fn write_pages(
             tool: &tool,
             generated: results.generated_utc.as_deref().unwrap_or(""),
         };
-        pack.file(
+        pack.file_unsynced(
             &page_name,
             page.render().context("rendering a test page")?.as_bytes(),
         )?;

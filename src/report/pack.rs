@@ -225,8 +225,21 @@ impl PackWriter {
         Ok(p)
     }
 
-    /// Writes a new file into the pack (never over an existing one).
+    /// Writes a new file into the pack (never over an existing one) and
+    /// syncs it to disk.
     pub fn file(&self, rel: &str, bytes: &[u8]) -> anyhow::Result<()> {
+        self.write_new(rel, bytes, true)
+    }
+
+    /// Like [`PackWriter::file`] without the sync, for the many small
+    /// files (a page per test, like the figures): syncing each costs more
+    /// than writing it, and a killed run leaves no pack either way (the
+    /// folder is moved into place only when complete).
+    pub fn file_unsynced(&self, rel: &str, bytes: &[u8]) -> anyhow::Result<()> {
+        self.write_new(rel, bytes, false)
+    }
+
+    fn write_new(&self, rel: &str, bytes: &[u8], sync: bool) -> anyhow::Result<()> {
         let p = self.tmp.join(rel);
         let mut f = OpenOptions::new()
             .write(true)
@@ -234,7 +247,7 @@ impl PackWriter {
             .open(&p)
             .with_context(|| format!("creating {}", p.display()))?;
         f.write_all(bytes)
-            .and_then(|_| f.sync_all())
+            .and_then(|_| if sync { f.sync_all() } else { Ok(()) })
             .with_context(|| format!("writing {}", p.display()))?;
         Ok(())
     }

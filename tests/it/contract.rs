@@ -446,3 +446,64 @@ fn inspect_json_is_versioned_and_follows_its_committed_schema() {
         }
     }
 }
+
+/// Every number of `value`, with its path, for comparing two runs.
+fn numbers(value: &Value, path: String, out: &mut Vec<(String, f64)>) {
+    match value {
+        Value::Object(m) => {
+            for (k, v) in m {
+                if !["generated_utc", "command_line", "tool"].contains(&k.as_str()) {
+                    numbers(v, format!("{path}.{k}"), out);
+                }
+            }
+        }
+        Value::Array(a) => {
+            for (i, v) in a.iter().enumerate() {
+                numbers(v, format!("{path}[{i}]"), out);
+            }
+        }
+        Value::Number(n) => out.push((path, n.as_f64().unwrap_or(f64::NAN))),
+        _ => {}
+    }
+}
+
+#[test]
+fn sample_results_agree_with_the_committed_reference() {
+    // Speed work must not change results: every number of the sample plan's
+    // results.json agrees with tests/fixtures/sample-results.json within
+    // 1e-12 relative (last-digit rounding, e.g. sqrt(x² + y²) for hypot),
+    // and every text is equal. Regenerate on purpose with
+    // UPDATE_REFERENCE=1 cargo test contract.
+    let run = sample_run();
+    let path = root().join("tests/fixtures/sample-results.json");
+    let mut now = run.results.clone();
+    for k in ["generated_utc", "command_line", "tool"] {
+        now.as_object_mut().unwrap().remove(k);
+    }
+    if std::env::var_os("UPDATE_REFERENCE").is_some() {
+        std::fs::write(&path, serde_json::to_string_pretty(&now).unwrap() + "\n").unwrap();
+    }
+    let reference: Value = serde_json::from_str(&std::fs::read_to_string(&path).unwrap()).unwrap();
+    let strip = |v: &Value| -> Value {
+        let mut v = v.clone();
+        fn zero(v: &mut Value) {
+            match v {
+                Value::Number(_) => *v = Value::from(0),
+                Value::Array(a) => a.iter_mut().for_each(zero),
+                Value::Object(m) => m.values_mut().for_each(zero),
+                _ => {}
+            }
+        }
+        zero(&mut v);
+        v
+    };
+    assert_eq!(strip(&now), strip(&reference), "texts or structure changed");
+    let (mut a, mut b) = (Vec::new(), Vec::new());
+    numbers(&now, String::new(), &mut a);
+    numbers(&reference, String::new(), &mut b);
+    assert_eq!(a.len(), b.len());
+    for ((p, x), (_, y)) in a.iter().zip(&b) {
+        let tol = 1e-12 * y.abs().max(1e-3);
+        assert!((x - y).abs() <= tol, "{p}: {x} against the reference {y}");
+    }
+}
