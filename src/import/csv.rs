@@ -291,10 +291,16 @@ fn fast_decimal(b: &[u8]) -> Option<(f64, usize)> {
         frac = i - frac_from;
         digits += frac;
     }
-    // More than 19 digits may have wrapped the mantissa (leading zeros
-    // included: such rare numbers take the general parser, which rounds
-    // them correctly too).
-    if digits == 0 || digits > 19 || frac > 22 || mant >= (1u64 << 53) {
+    // More than 19 significant digits may have wrapped the mantissa;
+    // leading zeros add nothing to it (counted only in this rare case).
+    let significant = || {
+        b[int_from..i]
+            .iter()
+            .filter(|c| c.is_ascii_digit())
+            .skip_while(|c| **c == b'0')
+            .count()
+    };
+    if digits == 0 || (digits > 19 && significant() > 19) || frac > 22 || mant >= (1u64 << 53) {
         return None;
     }
     if i < n && matches!(b[i], b'e' | b'E' | b'n' | b'N' | b'i' | b'I') {
