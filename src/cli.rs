@@ -36,6 +36,8 @@ pub enum Command {
     Rules(RulesArgs),
     /// Work with test plans.
     Plan(PlanArgs),
+    /// Merge the shard packs of one plan (`check --shard`) into one evidence pack.
+    Merge(MergeArgs),
     /// Compare a simulation with the measurement of the same test (model validation).
     Validate(Box<ValidateArgs>),
     /// Print a shell completion script (bash, zsh, fish, elvish, powershell).
@@ -113,6 +115,22 @@ pub struct ValidateArgs {
 }
 
 #[derive(Args, Debug)]
+#[command(
+    after_help = "Refuses shards of another plan, rule set or tool version and names missing shards and tests. Exit status: 0 every test passed, 1 some test failed or was inconclusive, 2 the shards could not be merged."
+)]
+pub struct MergeArgs {
+    /// The shard packs (each written by `check --shard K/N`).
+    #[arg(required = true, value_name = "SHARD_DIR")]
+    pub shards: Vec<PathBuf>,
+    /// Directory for the merged evidence pack.
+    #[arg(long, default_value = "holdfast-report", value_name = "DIR")]
+    pub out: PathBuf,
+    /// Print nothing but errors.
+    #[arg(long, short = 'q')]
+    pub quiet: bool,
+}
+
+#[derive(Args, Debug)]
 pub struct PlanInitArgs {
     /// Folder with the recordings.
     pub dir: PathBuf,
@@ -157,6 +175,18 @@ pub struct CheckArgs {
     /// Tests evaluated at once (0: one per core).
     #[arg(long, default_value_t = 0, value_name = "N")]
     pub jobs: usize,
+    /// Evaluate shard K of N of the plan's tests (every N-th test from the
+    /// K-th, in plan order) and write a shard pack for `holdfast merge`;
+    /// `auto` reads K and N from Slurm (SLURM_ARRAY_TASK_ID with
+    /// SLURM_ARRAY_TASK_MIN and SLURM_ARRAY_TASK_COUNT) or Kubernetes
+    /// (JOB_COMPLETION_INDEX with HOLDFAST_SHARDS).
+    #[arg(long, value_name = "K/N|auto")]
+    pub shard: Option<String>,
+    /// Exit 0 once every test was evaluated, whatever the verdicts (for
+    /// schedulers, where a failed verdict would mark the job failed);
+    /// errors still exit 2.
+    #[arg(long)]
+    pub exit_zero_when_evaluated: bool,
     /// Choose a rule-set parameter: NAME=VALUE, repeatable (over the plan's values).
     #[arg(long = "set", value_name = "NAME=VALUE")]
     pub set: Vec<String>,

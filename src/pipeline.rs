@@ -387,9 +387,8 @@ pub fn run_job(
     let work = || {
         job.tests
             .par_iter()
-            .enumerate()
-            .map(|(k, t)| {
-                let r = run_test(t, k, &job.rules[t.rules], job, &opts, plots);
+            .map(|t| {
+                let r = run_test(t, t.index, &job.rules[t.rules], job, &opts, plots);
                 bar.inc(1);
                 r
             })

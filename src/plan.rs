@@ -325,6 +325,9 @@ pub struct Simulation {
 /// One test, resolved: paths absolute-or-relative to the working directory.
 #[derive(Clone, Debug)]
 pub struct ResolvedTest {
+    /// Position in the whole plan (figure and page names use it, so that a
+    /// shard of the plan names them as the whole run does).
+    pub index: usize,
     pub id: String,
     pub file: PathBuf,
     pub map: ChannelMap,
@@ -551,6 +554,7 @@ pub fn load(path: &Path) -> Result<LoadedPlan, InputErrors> {
                 };
                 for (id, file) in files {
                     tests.push(ResolvedTest {
+                        index: tests.len(),
                         map: map.clone(),
                         id,
                         file,

@@ -5,6 +5,7 @@ pub mod check;
 pub mod inspect;
 pub mod plan_init;
 pub mod rules;
+pub mod shard;
 pub mod synth;
 pub mod validate;
 
@@ -75,6 +76,7 @@ pub fn run(cli: Cli) -> anyhow::Result<ExitStatus> {
             crate::cli::PlanCommand::Init(a) => plan_init::run(&a),
         },
         Command::Validate(args) => validate::run(&args),
+        Command::Merge(args) => shard::merge(&args),
         Command::Completions { shell } => {
             let mut cmd = <crate::cli::Cli as clap::CommandFactory>::command();
             clap_complete::generate(shell, &mut cmd, "holdfast", &mut std::io::stdout());

@@ -16,8 +16,9 @@ use std::path::{Path, PathBuf};
 pub const MARKER: &str = ".holdfast-pack";
 
 /// Names an earlier pack may hold (packs written before the marker existed).
-const PACK_NAMES: [&str; 13] = [
+const PACK_NAMES: [&str; 14] = [
     MARKER,
+    "shard.json",
     "results.json",
     "summary.csv",
     "report.html",

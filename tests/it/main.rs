@@ -21,6 +21,7 @@ mod plans;
 mod recorder_files;
 mod report;
 mod robustness;
+mod shards;
 mod table_vs_envelope;
 mod validation;
 mod views;
