@@ -22,6 +22,7 @@ mod recorder_files;
 mod report;
 mod robustness;
 mod shards;
+mod slurm;
 mod table_vs_envelope;
 mod validation;
 mod views;
