@@ -25,9 +25,11 @@ for i in $(seq 1 "$n"); do
 done
 size=$(du -sm "$dir/rec" | cut -f1)
 if [ -x /usr/bin/time ]; then
-  /usr/bin/time -f "$n tests, ${size} MB of CSV: %e s wall, %U s user, peak RSS %M KB" \
+  /usr/bin/time -o "$dir/time" -f "%e %U %M" \
     target/release/holdfast check "$dir/plan.yaml" --out "$dir/out" > /dev/null || true
+  read -r wall user rss < <(tail -1 "$dir/time")
+  echo "$n tests, ${size} MB of CSV: $wall s wall, $user s user, peak RSS $rss KB, $(echo "scale=1; $n / $wall" | bc) tests/s"
 else
   time (target/release/holdfast check "$dir/plan.yaml" --out "$dir/out" > /dev/null || true)
 fi
-echo "evidence pack: $dir/out ($(ls "$dir/out/plots" | wc -l) plot files, report.html $(du -h "$dir/out/report.html" | cut -f1))"
+echo "evidence pack: $dir/out ($(ls "$dir/out/plots" | wc -l) plot files, index.html $(du -h "$dir/out/index.html" | cut -f1), report.html $(du -h "$dir/out/report.html" | cut -f1))"

@@ -1,0 +1,26 @@
+#!/usr/bin/env bash
+# COMTRADE decode and analysis speed of `holdfast inspect`: a 10 s recording
+# at 100 kHz (1 M rows, 6 analog channels and a status channel) in each
+# binary data type; prints the best of three wall times as rows/s and
+# channel values/s, and the peak memory.
+# Usage: bench/comtrade.sh [SECONDS_AT_100kHz]   (default 10)
+set -euo pipefail
+cd "$(dirname "$0")/.."
+d=${1:-10}
+cargo build --release --quiet
+bin=target/release/holdfast
+dir=${BENCH_DIR:-$(mktemp -d)}
+rows=$(( d * 100000 + 1 ))
+for t in binary binary32 float32; do
+  f="$dir/comtrade-$t-${d}s.cfg"
+  [ -f "$f" ] || "$bin" synth --out "$f" --comtrade-type "$t" --sample-rate 100000 --duration "$d" \
+      --fault-start 2 --fault-duration 0.3 --noise 0.001 --status >/dev/null 2>&1
+  cat "${f%.cfg}.dat" > /dev/null
+  best=""; rss=""
+  for _ in 1 2 3; do
+    out=$(/usr/bin/time -f "%e %M" "$bin" inspect "$f" --rated-kv 0.69 --rated-mva 4.2 2>&1 >/dev/null | tail -1)
+    s=${out% *}
+    if [ -z "$best" ] || [ "$(echo "$s < $best" | bc)" = 1 ]; then best=$s; rss=${out#* }; fi
+  done
+  echo "$t: $rows rows in $best s = $(echo "scale=1; $rows / $best / 1000000" | bc) M rows/s, $(echo "scale=1; 6 * $rows / $best / 1000000" | bc) M analog values/s; peak RSS $rss KB"
+done
