@@ -422,11 +422,7 @@ pub fn run_job(
     let verdict = Verdict::combine(tests.iter().map(|t| t.verdict));
     let results = Results {
         schema_version: 1,
-        tool: Tool {
-            name: "holdfast".into(),
-            version: env!("CARGO_PKG_VERSION").into(),
-            commit: option_env!("HOLDFAST_COMMIT").map(Into::into),
-        },
+        tool: Tool::this(),
         plan: job.plan.as_ref().map(|(p, sha)| FileRef {
             id: None,
             path: crate::files::normalised(p),

@@ -372,11 +372,7 @@ fn expand(dir: &Path, id: &str, file: &str) -> Result<Vec<(String, PathBuf)>, St
     })?;
     let mut found: Vec<PathBuf> = paths
         .filter_map(|p| p.ok())
-        .filter(|p| p.is_file() && crate::import::is_recording(p))
-        .filter(|p| {
-            let dat = p.extension().is_some_and(|e| e.eq_ignore_ascii_case("dat"));
-            !(dat && (p.with_extension("cfg").exists() || p.with_extension("CFG").exists()))
-        })
+        .filter(|p| p.is_file() && crate::import::is_own_recording(p))
         .collect();
     found.sort();
     if found.is_empty() {

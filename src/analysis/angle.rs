@@ -383,18 +383,23 @@ pub fn deviation_deg(
 }
 
 /// The frequency of an analysed recording, Hz per series point, over
-/// `window_s`, with the disturbances `(start, end)` and the phase jumps
+/// `window_s`, with the voltage disturbances and the phase jumps
 /// (found with the default threshold) excluded; `None` without an angle.
 pub fn series_frequency(
     series: &super::Series,
     f_nom: f64,
-    disturbances: &[(f64, f64)],
+    disturbances: &[super::events::Disturbance],
     window_s: f64,
 ) -> Option<Vec<f64>> {
     let theta = series.get(super::Quantity::V1Angle)?;
     let t = &series.t;
     let cycle = 1.0 / f_nom;
-    let mut spans: Vec<(f64, f64)> = disturbances.to_vec();
+    // A disturbance that never ended lasts to the end of the recording.
+    let end = t.last().copied().unwrap_or(0.0);
+    let mut spans: Vec<(f64, f64)> = disturbances
+        .iter()
+        .map(|d| (d.start_s, d.end_s.unwrap_or(end)))
+        .collect();
     spans.extend(
         phase_jumps(t, theta, f_nom, DEFAULT_THRESHOLD_DEG)
             .iter()
@@ -454,7 +459,7 @@ pub const SUMMARY_ROCOF_S: f64 = 0.5;
 pub fn summarise(
     series: &super::Series,
     f_nom: f64,
-    disturbances: &[(f64, f64)],
+    disturbances: &[super::events::Disturbance],
 ) -> Option<(Vec<PhaseJump>, FrequencySummary)> {
     let theta = series.get(super::Quantity::V1Angle)?;
     let t = &series.t;

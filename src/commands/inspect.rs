@@ -198,12 +198,7 @@ fn analyse(
         }
     };
     let trip = detect_trip(&analysed.series, &det);
-    let end = analysed.series.t.last().copied().unwrap_or(0.0);
-    let spans: Vec<(f64, f64)> = disturbances
-        .iter()
-        .map(|d| (d.start_s, d.end_s.unwrap_or(end)))
-        .collect();
-    let angle = crate::analysis::angle::summarise(&analysed.series, f, &spans);
+    let angle = crate::analysis::angle::summarise(&analysed.series, f, &disturbances);
     Ok(InspectReport {
         schema_version: 1,
         analysis: Some(AnalysisFacts {

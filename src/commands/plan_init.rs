@@ -33,11 +33,8 @@ fn recordings(dir: &Path, depth: usize, out: &mut Vec<PathBuf>) -> std::io::Resu
             if depth < MAX_DEPTH && !p.join(crate::report::pack::MARKER).exists() {
                 recordings(&p, depth + 1, out)?;
             }
-        } else if meta.is_file() && import::is_recording(&p) && p.extension().is_some() {
-            let dat = p.extension().is_some_and(|e| e.eq_ignore_ascii_case("dat"));
-            if !(dat && (p.with_extension("cfg").exists() || p.with_extension("CFG").exists())) {
-                out.push(p);
-            }
+        } else if meta.is_file() && p.extension().is_some() && import::is_own_recording(&p) {
+            out.push(p);
         }
     }
     Ok(())

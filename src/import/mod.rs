@@ -93,6 +93,17 @@ pub fn is_recording(path: &Path) -> bool {
     RECORDING_EXTENSIONS.contains(&ext.as_str())
 }
 
+/// Whether `path` is a recording to check on its own: a recording by its
+/// extension, but not a COMTRADE `.dat` beside its `.cfg` (the pair is one
+/// recording, named by the `.cfg`). For folder scans and file patterns.
+pub fn is_own_recording(path: &Path) -> bool {
+    let dat = path
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("dat"));
+    is_recording(path)
+        && !(dat && (path.with_extension("cfg").exists() || path.with_extension("CFG").exists()))
+}
+
 /// Opens a recording, choosing the importer by file extension.
 pub fn open(
     path: &Path,

@@ -648,13 +648,9 @@ fn trace(results: &Results, recordings: bool) -> Trace {
 /// The order of the index: failed, then inconclusive, then passed tests,
 /// each in plan order.
 fn fails_first(results: &Results) -> Vec<usize> {
-    let rank = |v: Verdict| match v {
-        Verdict::Fail => 0,
-        Verdict::Inconclusive => 1,
-        _ => 2,
-    };
+    // Verdicts are ordered pass < … < fail (a test is never not applicable).
     let mut order: Vec<usize> = (0..results.tests.len()).collect();
-    order.sort_by_key(|&k| (rank(results.tests[k].verdict), k));
+    order.sort_by_key(|&k| (std::cmp::Reverse(results.tests[k].verdict), k));
     order
 }
 

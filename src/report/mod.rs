@@ -32,6 +32,13 @@ pub fn fmt_value(v: Option<f64>, unit: Unit) -> String {
     }
 }
 
+/// A number as a CSV cell: as it is, empty when missing or not finite.
+pub fn csv_number(v: Option<f64>) -> String {
+    v.filter(|x| x.is_finite())
+        .map(|x| format!("{x}"))
+        .unwrap_or_default()
+}
+
 /// The figures of a run, by test id.
 pub type FigureSet = std::collections::BTreeMap<String, Vec<html::RenderedFigure>>;
 

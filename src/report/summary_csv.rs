@@ -29,11 +29,7 @@ pub const HEADER: [&str; 16] = [
 pub fn render(results: &Results) -> anyhow::Result<Vec<u8>> {
     let mut w = csv::Writer::from_writer(Vec::new());
     w.write_record(HEADER)?;
-    let num = |v: Option<f64>| {
-        v.filter(|x| x.is_finite())
-            .map(|x| format!("{x}"))
-            .unwrap_or_default()
-    };
+    let num = super::csv_number;
     let plan_rules = results.rules.id.clone().unwrap_or_default();
     for t in &results.tests {
         let rule_set = text::csv_cell(t.rule_set.as_deref().unwrap_or(&plan_rules));

@@ -27,11 +27,7 @@ pub const HEADER: [&str; 18] = [
     "worst_detail",
 ];
 
-fn num(v: Option<f64>) -> String {
-    v.filter(|x| x.is_finite())
-        .map(|x| format!("{x}"))
-        .unwrap_or_default()
-}
+use super::csv_number as num;
 
 fn row(t: &TestResult, plan_rules: &str) -> Vec<String> {
     let d = t.main_disturbance();

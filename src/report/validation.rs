@@ -22,11 +22,7 @@ pub fn json(r: &ValidationResults) -> anyhow::Result<Vec<u8>> {
     )
 }
 
-fn num(x: Option<f64>) -> String {
-    x.filter(|v| v.is_finite())
-        .map(|v| format!("{v}"))
-        .unwrap_or_default()
-}
+use super::csv_number as num;
 
 /// `validation.csv`: text neutralised for spreadsheets, numbers as they are.
 pub fn csv(r: &ValidationResults) -> anyhow::Result<Vec<u8>> {

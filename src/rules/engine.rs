@@ -304,11 +304,7 @@ pub fn evaluate(
                 .into(),
         );
     }
-    let spans: Vec<(f64, f64)> = disturbances
-        .iter()
-        .map(|d| (d.start_s, d.end_s.unwrap_or(rec.rec_end)))
-        .collect();
-    let angle = crate::analysis::angle::summarise(series, det.frequency_hz, &spans);
+    let angle = crate::analysis::angle::summarise(series, det.frequency_hz, &disturbances);
     let mut out = finish(checks, notes, disturbances, trip, Some(v));
     out.angle = angle;
     out

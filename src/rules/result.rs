@@ -468,6 +468,17 @@ pub struct Tool {
     pub commit: Option<String>,
 }
 
+impl Tool {
+    /// This build: its version and the commit it was built from.
+    pub fn this() -> Self {
+        Tool {
+            name: "holdfast".into(),
+            version: env!("CARGO_PKG_VERSION").into(),
+            commit: option_env!("HOLDFAST_COMMIT").map(Into::into),
+        }
+    }
+}
+
 /// Who and what the evidence is for: the plan's description and project
 /// fields, as the plan states them.
 #[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize, JsonSchema)]
@@ -642,12 +653,8 @@ impl TestResult {
     /// the rule set. Not-applicable checks are never worst, nor is a
     /// passing test-realisation check (it judges the test, not the unit).
     pub fn worst_check(&self) -> Option<&CheckResult> {
-        let rank = |v: Verdict| match v {
-            Verdict::Fail => 0,
-            Verdict::Inconclusive => 1,
-            Verdict::Pass => 2,
-            Verdict::NotApplicable => 3,
-        };
+        // Worst first: the verdicts are ordered pass < … < fail.
+        let rank = std::cmp::Reverse;
         self.checks
             .iter()
             .filter(|c| c.verdict != Verdict::NotApplicable)

@@ -126,11 +126,7 @@ pub fn results_of(
     };
     Ok(ValidationResults {
         schema_version: 1,
-        tool: Tool {
-            name: "holdfast".into(),
-            version: env!("CARGO_PKG_VERSION").into(),
-            commit: option_env!("HOLDFAST_COMMIT").map(Into::into),
-        },
+        tool: Tool::this(),
         rules: FileRef {
             id: Some(rules.rules.id.clone()),
             path: crate::files::normalised(&rules.path),

@@ -294,10 +294,5 @@ impl Check for FrequencyTableSpec {
 /// The recording's frequency over `window_s`, voltage disturbances and
 /// phase jumps excluded.
 pub fn frequency_of(rec: &Recording<'_>, window_s: f64) -> Option<Vec<f64>> {
-    let spans: Vec<(f64, f64)> = rec
-        .disturbances
-        .iter()
-        .map(|d| (d.start_s, d.end_s.unwrap_or(rec.rec_end)))
-        .collect();
-    angle::series_frequency(rec.series, rec.f_nom, &spans, window_s)
+    angle::series_frequency(rec.series, rec.f_nom, rec.disturbances, window_s)
 }
