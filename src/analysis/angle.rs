@@ -127,6 +127,33 @@ fn range(t: &[f64], from: f64, to: f64) -> (usize, usize) {
     )
 }
 
+/// [`range`] for bounds that never decrease from call to call, by walking
+/// forward from the previous answer instead of searching the whole series
+/// (the same indices: `t` is sorted).
+#[derive(Default)]
+struct Walk {
+    a: usize,
+    b: usize,
+}
+
+impl Walk {
+    fn range(&mut self, t: &[f64], from: f64, to: f64) -> (usize, usize) {
+        self.a = self.before(t, from);
+        while self.b < t.len() && t[self.b] <= to {
+            self.b += 1;
+        }
+        (self.a, self.b)
+    }
+
+    /// `t.partition_point(|x| *x < x0)`.
+    fn before(&mut self, t: &[f64], x0: f64) -> usize {
+        while self.a < t.len() && t[self.a] < x0 {
+            self.a += 1;
+        }
+        self.a
+    }
+}
+
 fn wrap_deg(x: f64) -> f64 {
     let w = (x + 180.0).rem_euclid(360.0) - 180.0;
     if w == -180.0 {
@@ -316,6 +343,8 @@ pub fn frequency(
         (Some(a), Some(b)) => (*a, *b),
         _ => return Vec::new(),
     };
+    // The window's bounds only move forward: `range` found by walking.
+    let mut walk = Walk::default();
     t.iter()
         .map(|&tk| {
             let c = tk + half_cycle;
@@ -323,7 +352,7 @@ pub fn frequency(
             if from < first || to > last || excluded.iter().any(|(a, b)| *a < to && *b > from) {
                 return f64::NAN;
             }
-            let (a, b) = range(t, from, to);
+            let (a, b) = walk.range(t, from, to);
             if sums.count(a, b) < (b - a) as f64 {
                 return f64::NAN;
             }
@@ -339,8 +368,9 @@ pub fn frequency(
 /// `window_s/2` after the point minus the one `window_s/2` before, over
 /// `window_s`; NaN where either is unknown.
 pub fn rocof(t: &[f64], f: &[f64], window_s: f64) -> Vec<f64> {
-    let at = |x: f64| -> f64 {
-        let k = t.partition_point(|v| *v < x);
+    // Both instants only move forward: each has its own walk.
+    let at = |walk: &mut Walk, x: f64| -> f64 {
+        let k = walk.before(t, x);
         match (
             k.checked_sub(1).map(|j| (t[j], f[j])),
             t.get(k).map(|v| (*v, f[k])),
@@ -350,8 +380,11 @@ pub fn rocof(t: &[f64], f: &[f64], window_s: f64) -> Vec<f64> {
             _ => f64::NAN,
         }
     };
+    let (mut ahead, mut behind) = (Walk::default(), Walk::default());
     t.iter()
-        .map(|&tk| (at(tk + window_s / 2.0) - at(tk - window_s / 2.0)) / window_s)
+        .map(|&tk| {
+            (at(&mut ahead, tk + window_s / 2.0) - at(&mut behind, tk - window_s / 2.0)) / window_s
+        })
         .collect()
 }
 
@@ -392,6 +425,19 @@ pub fn series_frequency(
     window_s: f64,
 ) -> Option<Vec<f64>> {
     let theta = series.get(super::Quantity::V1Angle)?;
+    let jumps = phase_jumps(&series.t, theta, f_nom, DEFAULT_THRESHOLD_DEG);
+    frequency_around(series, f_nom, disturbances, &jumps, window_s)
+}
+
+/// [`series_frequency`] with the phase jumps already found.
+fn frequency_around(
+    series: &super::Series,
+    f_nom: f64,
+    disturbances: &[super::events::Disturbance],
+    jumps: &[PhaseJump],
+    window_s: f64,
+) -> Option<Vec<f64>> {
+    let theta = series.get(super::Quantity::V1Angle)?;
     let t = &series.t;
     let cycle = 1.0 / f_nom;
     // A disturbance that never ended lasts to the end of the recording.
@@ -400,11 +446,7 @@ pub fn series_frequency(
         .iter()
         .map(|d| (d.start_s, d.end_s.unwrap_or(end)))
         .collect();
-    spans.extend(
-        phase_jumps(t, theta, f_nom, DEFAULT_THRESHOLD_DEG)
-            .iter()
-            .map(|j| (j.at_s - cycle, j.at_s + cycle)),
-    );
+    spans.extend(jumps.iter().map(|j| (j.at_s - cycle, j.at_s + cycle)));
     Some(frequency(
         t,
         theta,
@@ -464,7 +506,7 @@ pub fn summarise(
     let theta = series.get(super::Quantity::V1Angle)?;
     let t = &series.t;
     let jumps = phase_jumps(t, theta, f_nom, DEFAULT_THRESHOLD_DEG);
-    let f = series_frequency(series, f_nom, disturbances, REFERENCE_S)?;
+    let f = frequency_around(series, f_nom, disturbances, &jumps, REFERENCE_S)?;
     let r = rocof(t, &f, SUMMARY_ROCOF_S);
     let finite = |v: &[f64]| {
         v.iter()

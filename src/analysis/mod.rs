@@ -694,14 +694,7 @@ impl Analyzer {
     fn block_waveform(&mut self, block: &Block<'_>) {
         let ch = |k: ChannelKey| block.channels[k.index()];
         let status = ch(ChannelKey::Status);
-        let keys = [
-            ChannelKey::Va,
-            ChannelKey::Vb,
-            ChannelKey::Vc,
-            ChannelKey::Ia,
-            ChannelKey::Ib,
-            ChannelKey::Ic,
-        ];
+        let keys = ChannelKey::PHASES;
         let nch = if self.has_current { 6 } else { 3 };
         let cols: Vec<&[f64]> = keys[..nch].iter().map(|k| ch(*k).unwrap_or(&[])).collect();
         let scales: Vec<f64> = keys[..nch].iter().map(|k| self.scale[k.index()]).collect();

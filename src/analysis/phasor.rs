@@ -42,6 +42,8 @@ pub struct SlidingDft {
     sums: Vec<Complex64>,
     pos: usize,
     n: u64,
+    /// `n mod k`: the index into `table`.
+    phase: usize,
     /// Samples pushed since the last reset (the window is full at `k`).
     fill: u64,
     since_refresh: usize,
@@ -82,6 +84,7 @@ impl SlidingDft {
             sums: vec![Complex64::new(0.0, 0.0); chans],
             pos: 0,
             n: 0,
+            phase: 0,
             fill: 0,
             since_refresh: 0,
             refresh_every: REFRESH_CYCLES * k,
@@ -123,7 +126,8 @@ impl SlidingDft {
     #[inline]
     fn rotation(&self, m: u64) -> Complex64 {
         match &self.table {
-            Some(t) => t[(m % self.k as u64) as usize],
+            // `phase` is `m mod k`, kept as the samples come.
+            Some(t) => t[self.phase],
             None => {
                 // Non-integer samples per cycle: the angle of sample m is
                 // computed from m directly (no accumulated rotation). Its
@@ -153,6 +157,10 @@ impl SlidingDft {
             self.pos = 0;
         }
         self.n += 1;
+        self.phase += 1;
+        if self.phase == self.k {
+            self.phase = 0;
+        }
         self.fill += 1;
         self.since_refresh += 1;
         if self.since_refresh >= self.refresh_every {

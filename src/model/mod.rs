@@ -37,6 +37,13 @@ pub enum ChannelKey {
 pub const N_KEYS: usize = 13;
 
 impl ChannelKey {
+    /// The phase voltages and currents, in this order (the first six of
+    /// [`ChannelKey::ALL`]).
+    pub const PHASES: [ChannelKey; 6] = {
+        let a = Self::ALL;
+        [a[0], a[1], a[2], a[3], a[4], a[5]]
+    };
+
     pub const ALL: [ChannelKey; N_KEYS] = [
         ChannelKey::Va,
         ChannelKey::Vb,

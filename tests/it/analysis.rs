@@ -15,14 +15,7 @@ use std::f64::consts::{PI, SQRT_2};
 /// Analyses per-unit waveforms held in memory. `cols` are va, vb, vc and
 /// optionally ia, ib, ic, sampled at `fs`.
 pub(crate) fn analyse_memory(cols: &[Vec<f64>], fs: f64, f_nom: f64) -> Analysed {
-    let keys = [
-        ChannelKey::Va,
-        ChannelKey::Vb,
-        ChannelKey::Vc,
-        ChannelKey::Ia,
-        ChannelKey::Ib,
-        ChannelKey::Ic,
-    ];
+    let keys = ChannelKey::PHASES;
     analyse_keys(
         &keys[..cols.len()],
         cols,
@@ -382,14 +375,7 @@ fn acb_rotation_is_refused_unless_declared() {
     for k in 0..3 {
         cols.push(cols[k].iter().map(|x| 0.8 * x).collect());
     }
-    let keys = [
-        ChannelKey::Va,
-        ChannelKey::Vb,
-        ChannelKey::Vc,
-        ChannelKey::Ia,
-        ChannelKey::Ib,
-        ChannelKey::Ic,
-    ];
+    let keys = ChannelKey::PHASES;
     let e = match analyse_keys(
         &keys,
         &cols,

@@ -23,14 +23,7 @@ fn read(path: &Path, map: &ChannelMap) -> (holdfast::model::RecordingInfo, Colle
     (info, c)
 }
 
-const PHASES: [ChannelKey; 6] = [
-    ChannelKey::Va,
-    ChannelKey::Vb,
-    ChannelKey::Vc,
-    ChannelKey::Ia,
-    ChannelKey::Ib,
-    ChannelKey::Ic,
-];
+const PHASES: [ChannelKey; 6] = ChannelKey::PHASES;
 
 #[test]
 fn same_values_as_the_independent_reader() {

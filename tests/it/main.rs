@@ -13,6 +13,7 @@ mod cli_rules;
 mod cli_verdicts;
 mod comtrade;
 mod contract;
+mod csv_import;
 mod docs;
 mod evidence;
 mod figures;
