@@ -5,6 +5,7 @@
 //! sample) into a [`FrameSink`]. Adding a format means adding a module here that
 //! implements [`Source`] and a branch in [`open`].
 
+pub(crate) mod ahead;
 pub(crate) mod channels;
 pub mod comtrade;
 pub mod csv;

@@ -81,7 +81,7 @@ struct Decoder<'a> {
 
 impl<'a> Decoder<'a> {
     fn new(src: &'a ComtradeSource) -> Result<Self, InputError> {
-        let r = open_data(&src.data)?;
+        let r = open_data(&src.data, src.opts.threads != 1)?;
         let cfg = &src.cfg;
         let reader = match cfg.data_type {
             DataType::Ascii => Reader::Ascii(Ascii {
@@ -726,7 +726,12 @@ pub(super) fn stream(
     sink: &mut dyn FrameSink,
 ) -> Result<RecordingInfo, InputError> {
     let mut d = Decoder::new(&src)?;
-    let c = read_samples(&src, &mut d, sink)?;
+    let c = if src.opts.threads == 1 {
+        read_samples(&src, &mut d, sink)?
+    } else {
+        // Decoding and the analysis on a thread each.
+        crate::import::ahead::ahead(sink, |forward| read_samples(&src, &mut d, forward))?
+    };
     let (index, announced) = (c.index, src.cfg.total_samples);
     let mut short = None;
     if c.stopped.is_none() && announced > 0 && index < announced {

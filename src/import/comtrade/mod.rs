@@ -720,29 +720,88 @@ fn truncation(cfg: &Config, d: &DataPlace) -> Option<InputError> {
     })
 }
 
-/// The data file's reader, hashing every byte it reads.
-pub(super) type DataReader = crate::files::Hashing<BufReader<std::fs::File>>;
+/// The data file's reader, hashing every byte it reads: on this thread, or
+/// (one recording read by itself) on a thread of its own, ahead.
+pub(super) enum DataReader {
+    Here(crate::files::Hashing<BufReader<std::fs::File>>),
+    Ahead(crate::files::HashedAhead),
+}
+
+impl DataReader {
+    /// Reads the rest; the digest of the whole file and its length.
+    pub(super) fn finish(self) -> std::io::Result<(String, u64)> {
+        match self {
+            DataReader::Here(r) => r.finish(),
+            DataReader::Ahead(r) => r.finish(),
+        }
+    }
+}
+
+impl std::io::Read for DataReader {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        match self {
+            DataReader::Here(r) => r.read(buf),
+            DataReader::Ahead(r) => r.read(buf),
+        }
+    }
+}
+
+impl std::io::BufRead for DataReader {
+    fn fill_buf(&mut self) -> std::io::Result<&[u8]> {
+        match self {
+            DataReader::Here(r) => r.fill_buf(),
+            DataReader::Ahead(r) => r.fill_buf(),
+        }
+    }
+    fn consume(&mut self, amt: usize) {
+        match self {
+            DataReader::Here(r) => r.consume(amt),
+            DataReader::Ahead(r) => r.consume(amt),
+        }
+    }
+}
 
 /// Opens the data bytes at their place: a `.dat` from its start, or a `.cff`
 /// read from its start up to the data (checking that these are the bytes
 /// the configuration came from), so that the digest covers the whole file.
-fn open_data(d: &DataPlace) -> Result<DataReader, InputError> {
+/// With `ahead`, the data is then read and hashed on a thread of its own.
+fn open_data(d: &DataPlace, ahead: bool) -> Result<DataReader, InputError> {
     let f = crate::files::open_regular(&d.path, "data file")
         .map_err(|e| e.hint("a .cfg needs its .dat beside it, with the same name"))?;
-    let mut r = crate::files::Hashing::new(BufReader::with_capacity(1 << 20, f));
-    if d.offset > 0 {
-        let skipped = std::io::copy(&mut (&mut r).take(d.offset), &mut std::io::sink())
-            .map_err(|e| InputError::new(&d.path, format!("cannot read: {e}")))?;
-        let same = d
-            .prefix_sha256
-            .as_ref()
-            .is_none_or(|p| *p == r.digest_so_far());
-        if skipped != d.offset || !same {
-            return Err(
-                InputError::new(&d.path, "the file changed while it was being read")
-                    .hint("check the recording when nothing is writing to it"),
-            );
-        }
+    if ahead {
+        // Unbuffered up to the data: the thread goes on from there.
+        let mut r = crate::files::Hashing::new(f);
+        skip_prefix(&mut r, d)?;
+        let (f, hash, bytes) = r.into_parts();
+        return Ok(DataReader::Ahead(crate::files::HashedAhead::start(
+            f, hash, bytes,
+        )));
     }
-    Ok(r)
+    let mut r = crate::files::Hashing::new(BufReader::with_capacity(1 << 20, f));
+    skip_prefix(&mut r, d)?;
+    Ok(DataReader::Here(r))
+}
+
+/// Reads a `.cff`'s bytes before the data through `r`, checking that they
+/// are the bytes the configuration was read from.
+fn skip_prefix<R: std::io::Read>(
+    r: &mut crate::files::Hashing<R>,
+    d: &DataPlace,
+) -> Result<(), InputError> {
+    if d.offset == 0 {
+        return Ok(());
+    }
+    let skipped = std::io::copy(&mut (&mut *r).take(d.offset), &mut std::io::sink())
+        .map_err(|e| InputError::new(&d.path, format!("cannot read: {e}")))?;
+    let same = d
+        .prefix_sha256
+        .as_ref()
+        .is_none_or(|p| *p == r.digest_so_far());
+    if skipped != d.offset || !same {
+        return Err(
+            InputError::new(&d.path, "the file changed while it was being read")
+                .hint("check the recording when nothing is writing to it"),
+        );
+    }
+    Ok(())
 }
