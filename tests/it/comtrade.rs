@@ -544,3 +544,65 @@ fn same_verdicts_from_csv_and_every_comtrade_type() {
         .iter()
         .any(|(id, v)| id == "lvrt" && v == "pass"));
 }
+
+#[test]
+fn errors_of_binary_records_come_in_record_order() {
+    // Values are decoded and scaled a block at a time: the first problem in
+    // record order is still the one reported (a missing value before a
+    // sample-number jump, and the reverse; of two channels missing in one
+    // record, the first mapped).
+    let dir = tempfile::tempdir().unwrap();
+    let cfg = hand_written_cfg("BINARY").replace("1000,3\r\n", "1000,40\r\n");
+    let record = |n: u32, ua: i16, ub: i16| {
+        let mut r = Vec::new();
+        r.extend_from_slice(&n.to_le_bytes());
+        r.extend_from_slice(&((n - 1) * 1000).to_le_bytes());
+        for x in [ua, ub, 7i16] {
+            r.extend_from_slice(&x.to_le_bytes());
+        }
+        r.extend_from_slice(&1u16.to_le_bytes());
+        r
+    };
+    let case = |name: &str, edit: &dyn Fn(u32) -> (u32, i16, i16), want: &str| {
+        let dat: Vec<u8> = (1..=40)
+            .flat_map(|n| {
+                let (m, ua, ub) = edit(n);
+                record(m, ua, ub)
+            })
+            .collect();
+        std::fs::write(dir.path().join(format!("{name}.cfg")), &cfg).unwrap();
+        std::fs::write(dir.path().join(format!("{name}.dat")), dat).unwrap();
+        inspect(&dir.path().join(format!("{name}.cfg")))
+            .code(2)
+            .stderr(predicate::str::contains(want));
+    };
+    let missing = i16::MIN;
+    case(
+        "gap-first",
+        &|n| match n {
+            10 => (n, 5, missing),
+            20.. => (n + 5, 5, 5),
+            _ => (n, 5, 5),
+        },
+        "sample 10 of channel 'UB' is missing",
+    );
+    case(
+        "jump-first",
+        &|n| match n {
+            10.. => (n + 89, if n == 20 { missing } else { 5 }, 5),
+            _ => (n, 5, 5),
+        },
+        "sample number jumps from 9 to 99 at sample 10",
+    );
+    case(
+        "two-missing",
+        &|n| {
+            if n == 12 {
+                (n, missing, missing)
+            } else {
+                (n, 5, 5)
+            }
+        },
+        "sample 12 of channel 'UA' is missing",
+    );
+}

@@ -255,22 +255,61 @@ impl Binary {
         }
         let dt = src.cfg.data_type;
         let na = src.cfg.analogs.len();
-        for k in 0..n {
-            let b = &self.buf[k * rec..(k + 1) * rec];
-            if b.iter().all(|x| *x == 0x1a) {
-                // Whole records of SUB padding: the data ended.
-                self.sub_padding = true;
-                self.left = Some(0);
-                n = k;
-                break;
+        if let Some(k) =
+            (0..n).find(|k| self.buf[k * rec..(k + 1) * rec].iter().all(|x| *x == 0x1a))
+        {
+            // Whole records of SUB padding: the data ended.
+            self.sub_padding = true;
+            self.left = Some(0);
+            n = k;
+        }
+        // Field by field over the records: each loop does one thing.
+        let records = self.buf[..n * rec].chunks_exact(rec);
+        let u32_at = |b: &[u8], o: usize| u32::from_le_bytes([b[o], b[o + 1], b[o + 2], b[o + 3]]);
+        raw.sample
+            .extend(records.clone().map(|b| u64::from(u32_at(b, 0))));
+        raw.stamp.extend(records.clone().map(|b| {
+            let ts = u32_at(b, 4);
+            if ts == u32::MAX {
+                f64::NAN
+            } else {
+                f64::from(ts)
             }
-            let u32_at = |o: usize| u32::from_le_bytes([b[o], b[o + 1], b[o + 2], b[o + 3]]);
-            raw.sample.push(u32_at(0) as u64);
-            let ts = u32_at(4);
-            raw.stamp
-                .push(if ts == u32::MAX { f64::NAN } else { ts as f64 });
-            for (c, m) in src.mapped.iter().enumerate() {
-                raw.cols[c].push(binary_value(b, m, dt, na));
+        }));
+        for (c, m) in src.mapped.iter().enumerate() {
+            let col = &mut raw.cols[c];
+            match (m.analog, dt) {
+                (Some(i), DataType::Binary) => {
+                    let o = 8 + 2 * i;
+                    col.extend(records.clone().map(|b| {
+                        let x = i16::from_le_bytes([b[o], b[o + 1]]);
+                        if x == i16::MIN {
+                            f64::NAN
+                        } else {
+                            f64::from(x)
+                        }
+                    }));
+                }
+                (Some(i), DataType::Binary32) => {
+                    let o = 8 + 4 * i;
+                    col.extend(records.clone().map(|b| {
+                        let x = u32_at(b, o) as i32;
+                        if x == i32::MIN {
+                            f64::NAN
+                        } else {
+                            f64::from(x)
+                        }
+                    }));
+                }
+                (Some(i), _) => {
+                    let o = 8 + 4 * i;
+                    col.extend(
+                        records
+                            .clone()
+                            .map(|b| f64::from(f32::from_bits(u32_at(b, o)))),
+                    );
+                }
+                (None, _) => col.extend(records.clone().map(|b| binary_value(b, m, dt, na))),
             }
         }
         Ok(n)
@@ -609,6 +648,38 @@ fn scaled(m: &Mapped, x: f64, sample_no: u64, d: &Decoder<'_>) -> Result<f64, In
     Ok(y)
 }
 
+/// The value [`scaled`] gives when it accepts `x` (the same operations).
+#[inline]
+fn scale_value(m: &Mapped, x: f64) -> f64 {
+    if m.digital.is_some() {
+        x
+    } else {
+        (m.a * x + m.b) * m.k
+    }
+}
+
+/// Every mapped channel of a block scaled, column by column (the tight loop
+/// the compiler vectorises), into `out`.
+fn scale_block(mapped: &[Mapped], raw: &Raw, n: usize, out: &mut Vec<Vec<f64>>) {
+    out.resize_with(mapped.len(), Vec::new);
+    for ((m, x), y) in mapped.iter().zip(&raw.cols).zip(out.iter_mut()) {
+        y.clear();
+        y.extend(x[..n].iter().map(|x| scale_value(m, *x)));
+    }
+}
+
+/// The first row from `from` on where [`scaled`] refuses a value (missing,
+/// or not finite after scaling) in any channel. A missing raw value scales
+/// to NaN or infinity, so the scaled values alone tell; each column is
+/// first checked whole without branches and searched only when it fails.
+fn first_refused(scaled: &[Vec<f64>], from: usize, n: usize) -> Option<usize> {
+    scaled
+        .iter()
+        .filter(|y| y[from..n].iter().fold(false, |bad, v| bad | !v.is_finite()))
+        .filter_map(|y| (from..n).find(|&k| !y[k].is_finite()))
+        .min()
+}
+
 /// What the sample loop found.
 struct Counted {
     index: u64,
@@ -652,11 +723,26 @@ fn read_samples(
     };
     let mut prev_n: Option<u64> = None;
     let mut in_use = true;
+    let mut scaled_cols: Vec<Vec<f64>> = Vec::new();
     'blocks: loop {
         let n = d.next(BLOCK, &mut raw)?;
         if n == 0 {
             break;
         }
+        // Values are scaled for the whole block at once and handed on per
+        // run of analysed rows; a row with a value that `scaled` refuses is
+        // met in row order, so errors come in the same order as row by row.
+        scale_block(&src.mapped, &raw, n, &mut scaled_cols);
+        let mut refused = first_refused(&scaled_cols, 0, n);
+        // First row of the analysed run whose values are not handed on yet.
+        let mut run: Option<usize> = None;
+        let push_run = |out: &mut Collector<'_>, run: &mut Option<usize>, to: usize| {
+            if let Some(from) = run.take() {
+                for (col, y) in out.cols.iter_mut().zip(&scaled_cols) {
+                    col.extend_from_slice(&y[from..to]);
+                }
+            }
+        };
         for k in 0..n {
             let sample_no = c.index + 1;
             let place = |e: InputError| -> InputError {
@@ -691,6 +777,7 @@ fn read_samples(
                 Err(ClockStop::Error(e)) => return Err(place(e)),
                 Err(ClockStop::Uneven(why)) => {
                     c.stopped = Some(why);
+                    push_run(&mut out, &mut run, k);
                     out.flush(sink);
                     break 'blocks;
                 }
@@ -698,6 +785,7 @@ fn read_samples(
             if used != in_use {
                 // Hand over what was collected, then say whether the next
                 // samples follow without a break.
+                push_run(&mut out, &mut run, k);
                 out.flush(sink);
                 if used && c.index > 0 {
                     sink.gap();
@@ -706,15 +794,23 @@ fn read_samples(
             }
             c.last_t = t;
             c.index += 1;
+            if refused == Some(k) {
+                if in_use {
+                    // The error of the first channel refused, as row by row.
+                    for (col, m) in src.mapped.iter().enumerate() {
+                        scaled(m, raw.cols[col][k], sample_no, d).map_err(place)?;
+                    }
+                }
+                // A row that is not analysed may miss values.
+                refused = first_refused(&scaled_cols, k + 1, n);
+            }
             if !in_use {
                 continue;
             }
             out.time.push(t);
-            for (col, m) in src.mapped.iter().enumerate() {
-                let y = scaled(m, raw.cols[col][k], sample_no, d).map_err(place)?;
-                out.cols[col].push(y);
-            }
+            run.get_or_insert(k);
         }
+        push_run(&mut out, &mut run, n);
         out.flush(sink);
     }
     c.max_deviation = clock.max_deviation();
