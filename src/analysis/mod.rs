@@ -688,6 +688,31 @@ impl FrameSink for Analyzer {
     }
 }
 
+/// The first sample of `range` (then the first channel) whose scaled value
+/// `cols[c][i] * scales[c]` is not finite; each channel is checked whole
+/// without branches first.
+fn first_unusable(
+    cols: &[&[f64]],
+    scales: &[f64],
+    range: std::ops::Range<usize>,
+) -> Option<(usize, usize)> {
+    cols.iter()
+        .zip(scales)
+        .enumerate()
+        .filter(|(_, (col, s))| {
+            col[range.clone()]
+                .iter()
+                .fold(false, |bad, x| bad | !(x * *s).is_finite())
+        })
+        .filter_map(|(c, (col, s))| {
+            range
+                .clone()
+                .find(|&k| !(col[k] * s).is_finite())
+                .map(|k| (k, c))
+        })
+        .min()
+}
+
 impl Analyzer {
     /// Waveforms: scaled (and derived, swapped) samples into the sliding DFT,
     /// one output point per decimation group.
@@ -703,6 +728,11 @@ impl Analyzer {
         let nd = nch + residual.is_some() as usize;
         let line = self.connection == Connection::PhaseToPhase;
         let acb = self.phase_order == PhaseOrder::Acb;
+        if self.derived_voltage.is_none() && !acb && residual.is_none() && self.dft.is_some() {
+            // The channels go into the DFT as they are: run by run.
+            self.block_waveform_runs(block, &cols, &scales, status, &keys);
+            return;
+        }
         for i in 0..block.len() {
             for c in 0..nch {
                 if Some(c) != self.derived_voltage {
@@ -760,6 +790,72 @@ impl Analyzer {
                     self.since_out = 0;
                 }
             }
+        }
+    }
+
+    /// [`Analyzer::block_waveform`] for channels that go into the DFT
+    /// unchanged, in runs that end where a point is emitted or the DFT
+    /// refreshes its sums: each run is pushed channel by channel
+    /// ([`SlidingDft::push_run`]). The same values, checks and points as
+    /// sample by sample.
+    fn block_waveform_runs(
+        &mut self,
+        block: &Block<'_>,
+        cols: &[&[f64]],
+        scales: &[f64],
+        status: Option<&[f64]>,
+        keys: &[ChannelKey],
+    ) {
+        let len = block.len();
+        let mut i = 0;
+        while i < len {
+            let Some(d) = self.dft.as_mut() else { return };
+            let ready = d.ready();
+            // Pushes up to and including the next one that emits a point.
+            let to_emit = if !ready {
+                d.until_ready()
+            } else if self.since_out == 0 {
+                1
+            } else {
+                self.decimation - self.since_out + 1
+            };
+            let run = to_emit.min(d.until_refresh()).min(len - i);
+            let range = i..i + run;
+            if self.problem.is_none() {
+                if let Some((k, c)) = first_unusable(cols, scales, range.clone()) {
+                    self.problem = Some((format!("channel {}", keys[c].name()), block.time[k]));
+                }
+            }
+            d.push_run(
+                cols,
+                scales,
+                range.clone(),
+                ready.then_some(&mut self.deviation_max),
+            );
+            let ready_at_end = d.ready();
+            if let Some(st) = status {
+                for v in &st[range] {
+                    self.status_min = self.status_min.min(*v);
+                }
+            }
+            let mut emit_at = None;
+            for j in 0..run {
+                if ready || (j + 1 == run && ready_at_end) {
+                    if self.since_out == 0 {
+                        emit_at = Some(i + j);
+                    }
+                    self.since_out += 1;
+                    if self.since_out >= self.decimation {
+                        self.since_out = 0;
+                    }
+                }
+            }
+            if let Some(k) = emit_at {
+                // Only the run's last push can emit (the run ends there).
+                self.emit_waveform(block.time[k]);
+                self.status_min = f64::INFINITY;
+            }
+            i += run;
         }
     }
 

@@ -44,6 +44,8 @@ pub struct SlidingDft {
     n: u64,
     /// `n mod k`: the index into `table`.
     phase: usize,
+    /// The rotations of a run (see [`SlidingDft::push_run`]).
+    scratch: Vec<Complex64>,
     /// Samples pushed since the last reset (the window is full at `k`).
     fill: u64,
     since_refresh: usize,
@@ -85,6 +87,7 @@ impl SlidingDft {
             pos: 0,
             n: 0,
             phase: 0,
+            scratch: Vec::new(),
             fill: 0,
             since_refresh: 0,
             refresh_every: REFRESH_CYCLES * k,
@@ -168,6 +171,102 @@ impl SlidingDft {
         }
     }
 
+    /// Samples that can be pushed before the next refresh of the sums.
+    pub fn until_refresh(&self) -> usize {
+        self.refresh_every - self.since_refresh
+    }
+
+    /// Samples still to push before the window is full (0 when ready).
+    pub fn until_ready(&self) -> usize {
+        (self.k as u64).saturating_sub(self.fill) as usize
+    }
+
+    /// Pushes samples `range` of every channel (`cols[c][i] * scales[c]`)
+    /// channel by channel: the same operations in the same order per
+    /// channel as [`SlidingDft::push`] sample by sample, so the same sums.
+    /// The run must not pass a refresh (see [`SlidingDft::until_refresh`]).
+    /// With `deviation`, the largest |x − oldest| of the first three
+    /// channels is folded into it (for a full window).
+    pub fn push_run(
+        &mut self,
+        cols: &[&[f64]],
+        scales: &[f64],
+        range: std::ops::Range<usize>,
+        mut deviation: Option<&mut f64>,
+    ) {
+        let len = range.len();
+        debug_assert!(len <= self.until_refresh() && cols.len() == self.chans);
+        let mut rotations = std::mem::take(&mut self.scratch);
+        rotations.clear();
+        let mut phase = self.phase;
+        for m in 0..len as u64 {
+            rotations.push(match &self.table {
+                Some(t) => {
+                    let w = t[phase];
+                    phase += 1;
+                    if phase == self.k {
+                        phase = 0;
+                    }
+                    w
+                }
+                None => self.rotation(self.n + m),
+            });
+        }
+        let (k, chans) = (self.k, self.chans);
+        for (c, (col, scale)) in cols.iter().zip(scales).enumerate() {
+            let xs = &col[range.clone()];
+            let mut sum = self.sums[c];
+            let mut pos = self.pos;
+            let mut dev = deviation.as_deref().copied().filter(|_| c < 3);
+            for (j, (x, w)) in xs.iter().zip(rotations.iter()).enumerate() {
+                let x = x * scale;
+                let at = pos * chans + c;
+                let old = self.ring[at];
+                if let Some(d) = &mut dev {
+                    let dv = (x - old).abs();
+                    if dv > *d {
+                        *d = dv;
+                    }
+                }
+                // The rotation stored k samples ago: this run's own when it
+                // is longer than the window.
+                let w_old = if j >= k {
+                    rotations[j - k]
+                } else {
+                    self.rot[pos]
+                };
+                sum += w * x - w_old * old;
+                self.ring[at] = x;
+                pos += 1;
+                if pos == k {
+                    pos = 0;
+                }
+            }
+            self.sums[c] = sum;
+            if let (Some(d), Some(out)) = (dev, deviation.as_deref_mut()) {
+                *out = d;
+            }
+        }
+        for w in rotations.iter() {
+            self.rot[self.pos] = *w;
+            self.pos += 1;
+            if self.pos == self.k {
+                self.pos = 0;
+            }
+        }
+        self.scratch = rotations;
+        self.n += len as u64;
+        self.phase = phase;
+        if self.table.is_none() {
+            self.phase = (self.n % self.k as u64) as usize;
+        }
+        self.fill += len as u64;
+        self.since_refresh += len;
+        if self.since_refresh >= self.refresh_every {
+            self.refresh();
+        }
+    }
+
     /// Recomputes the running sums exactly from the window.
     fn refresh(&mut self) {
         self.since_refresh = 0;
@@ -218,6 +317,58 @@ pub fn direct_phasor(window: &[f64], first_index: u64, fs: f64, f_nom: f64) -> C
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn runs_give_the_sums_of_sample_by_sample() {
+        // Whole-cycle (200 samples) and fractional (166.67) windows, runs of
+        // every length up to a refresh, a window not yet full and a reset.
+        for (fs, f) in [(10_000.0, 50.0), (10_000.0, 60.0)] {
+            let n = 60_000;
+            let cols: Vec<Vec<f64>> = (0..4)
+                .map(|c| {
+                    (0..n)
+                        .map(|i| ((i * (c + 3)) as f64 * 0.0123).sin() * 100.0 + c as f64)
+                        .collect()
+                })
+                .collect();
+            let scales = [0.5, 2.0, 1.0 / 3.0, 7.0];
+            let refs: Vec<&[f64]> = cols.iter().map(|c| c.as_slice()).collect();
+            let mut one = SlidingDft::new(fs, f, 4);
+            let mut runs = SlidingDft::new(fs, f, 4);
+            let (mut dev_one, mut dev_runs) = (0.0f64, 0.0f64);
+            let mut i = 0;
+            let mut len = 1;
+            while i < n {
+                let run = len.min(runs.until_refresh()).min(n - i);
+                let ready = runs.ready();
+                for k in i..i + run {
+                    let x: Vec<f64> = (0..4).map(|c| refs[c][k] * scales[c]).collect();
+                    if one.ready() {
+                        for c in 0..3 {
+                            dev_one = dev_one.max((x[c] - one.oldest(c)).abs());
+                        }
+                    }
+                    one.push(&x);
+                }
+                runs.push_run(&refs, &scales, i..i + run, ready.then_some(&mut dev_runs));
+                for c in 0..4 {
+                    assert_eq!(
+                        one.phasor(c),
+                        runs.phasor(c),
+                        "{f} Hz, sample {i}, channel {c}"
+                    );
+                }
+                i += run;
+                len = len % 457 + 37;
+                if i > 30_000 && i < 30_000 + 500 {
+                    one.reset();
+                    runs.reset();
+                }
+            }
+            assert_eq!(dev_one, dev_runs);
+            assert!(dev_runs > 0.0);
+        }
+    }
 
     #[test]
     fn sliding_matches_direct_after_many_refreshes() {
