@@ -6,8 +6,14 @@
 # ratio.
 #
 # Usage: bench/compare.sh [SECONDS_AT_100kHz]   (default 10: about 73 MB)
+#        bench/compare.sh --plan [TESTS]          (default 200)
+# With --plan: `holdfast check` of a plan of TESTS copies of the sample
+# recordings (rules, figures, the whole evidence pack) against the script's
+# plan mode (the same per-recording job on all cores, no figures).
 set -euo pipefail
 cd "$(dirname "$0")/.."
+plan=""
+if [ "${1:-}" = "--plan" ]; then plan=${2:-200}; fi
 d=${1:-10}
 cargo build --release --quiet
 bin=target/release/holdfast
@@ -17,10 +23,6 @@ if [ ! -x "$venv/bin/python" ]; then
   "$venv/bin/pip" install --quiet pandas numpy
 fi
 dir=${BENCH_DIR:-$(mktemp -d)}
-f="$dir/bench-${d}s.csv"
-[ -f "$f" ] || "$bin" synth --out "$f" --sample-rate 100000 --duration "$d" \
-    --fault-start 2 --fault-duration 0.3 --noise 0.001 >/dev/null 2>&1
-cat "$f" > /dev/null
 best() {
   local b=""
   for _ in 1 2 3; do
@@ -31,6 +33,33 @@ best() {
   done
   echo "$b"
 }
+if [ -n "$plan" ]; then
+  pdir="$dir/plan-$plan"
+  mkdir -p "$pdir/rec"
+  files=(sample-data/recordings/t0[1-9]-*.csv)
+  {
+    echo "unit: { rated_voltage_kv: 0.69, rated_power_mva: 4.2, frequency_hz: 50 }"
+    echo "rules: $PWD/rules/eu-rfg-ppm-type-d-example.yaml"
+    echo "channels:"
+    echo "  time: t"
+    echo "  voltage: { a: va, b: vb, c: vc, unit: V }"
+    echo "  current: { a: ia, b: ib, c: ic, unit: A }"
+    echo "tests:"
+  } > "$pdir/plan.yaml"
+  for i in $(seq 1 "$plan"); do
+    cp "${files[$(( i % ${#files[@]} ))]}" "$pdir/rec/r$i.csv"
+    echo "  - { id: R$i, file: rec/r$i.csv }" >> "$pdir/plan.yaml"
+  done
+  h=$(best sh -c "rm -rf '$pdir/out'; '$bin' check '$pdir/plan.yaml' --out '$pdir/out'")
+  p=$(best "$venv/bin/python" bench/dataframe_inspect.py "$pdir/rec" 0.69 50)
+  echo "$plan tests: holdfast check ${h} s (evidence pack with SVG figures), pandas+numpy plan mode ${p} s (no figures)"
+  echo "ratio: $(echo "scale=2; $p / $h" | bc)x"
+  exit 0
+fi
+f="$dir/bench-${d}s.csv"
+[ -f "$f" ] || "$bin" synth --out "$f" --sample-rate 100000 --duration "$d" \
+    --fault-start 2 --fault-duration 0.3 --noise 0.001 >/dev/null 2>&1
+cat "$f" > /dev/null
 h=$(best "$bin" inspect "$f" --rated-kv 0.69 --rated-mva 4.2 --frequency 50)
 p=$(best "$venv/bin/python" bench/dataframe_inspect.py "$f" 0.69 50)
 # The script's own time without Python's start-up and imports, best of three.
