@@ -35,21 +35,7 @@ best() {
 }
 if [ -n "$plan" ]; then
   pdir="$dir/plan-$plan"
-  mkdir -p "$pdir/rec"
-  files=(sample-data/recordings/t0[1-9]-*.csv)
-  {
-    echo "unit: { rated_voltage_kv: 0.69, rated_power_mva: 4.2, frequency_hz: 50 }"
-    echo "rules: $PWD/rules/eu-rfg-ppm-type-d-example.yaml"
-    echo "channels:"
-    echo "  time: t"
-    echo "  voltage: { a: va, b: vb, c: vc, unit: V }"
-    echo "  current: { a: ia, b: ib, c: ic, unit: A }"
-    echo "tests:"
-  } > "$pdir/plan.yaml"
-  for i in $(seq 1 "$plan"); do
-    cp "${files[$(( i % ${#files[@]} ))]}" "$pdir/rec/r$i.csv"
-    echo "  - { id: R$i, file: rec/r$i.csv }" >> "$pdir/plan.yaml"
-  done
+  bench/make-plan.sh "$plan" "$pdir"
   h=$(best sh -c "rm -rf '$pdir/out'; '$bin' check '$pdir/plan.yaml' --out '$pdir/out'")
   p=$(best "$venv/bin/python" bench/dataframe_inspect.py "$pdir/rec" 0.69 50)
   echo "$plan tests: holdfast check ${h} s (evidence pack with SVG figures), pandas+numpy plan mode ${p} s (no figures)"

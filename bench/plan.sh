@@ -7,22 +7,7 @@ cd "$(dirname "$0")/.."
 n=${1:-200}
 cargo build --release --quiet
 dir=$(mktemp -d)
-mkdir -p "$dir/rec"
-files=(sample-data/recordings/t0[1-9]-*.csv)
-{
-  echo "unit: { rated_voltage_kv: 0.69, rated_power_mva: 4.2, frequency_hz: 50 }"
-  echo "rules: $PWD/rules/eu-rfg-ppm-type-d-example.yaml"
-  echo "channels:"
-  echo "  time: t"
-  echo "  voltage: { a: va, b: vb, c: vc, unit: V }"
-  echo "  current: { a: ia, b: ib, c: ic, unit: A }"
-  echo "tests:"
-} > "$dir/plan.yaml"
-for i in $(seq 1 "$n"); do
-  f=${files[$(( i % ${#files[@]} ))]}
-  cp "$f" "$dir/rec/r$i.csv"
-  echo "  - { id: R$i, file: rec/r$i.csv }" >> "$dir/plan.yaml"
-done
+bench/make-plan.sh "$n" "$dir"
 size=$(du -sm "$dir/rec" | cut -f1)
 if [ -x /usr/bin/time ]; then
   /usr/bin/time -o "$dir/time" -f "%e %U %M" \

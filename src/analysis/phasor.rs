@@ -192,7 +192,7 @@ impl SlidingDft {
         cols: &[&[f64]],
         scales: &[f64],
         range: std::ops::Range<usize>,
-        mut deviation: Option<&mut f64>,
+        deviation: Option<&mut f64>,
     ) {
         let len = range.len();
         debug_assert!(len <= self.until_refresh() && cols.len() == self.chans);
@@ -201,31 +201,33 @@ impl SlidingDft {
         let mut phase = self.phase;
         for m in 0..len as u64 {
             rotations.push(match &self.table {
-                Some(t) => {
-                    let w = t[phase];
-                    phase += 1;
-                    if phase == self.k {
-                        phase = 0;
-                    }
-                    w
-                }
+                Some(t) => t[phase],
                 None => self.rotation(self.n + m),
             });
+            phase += 1;
+            if phase == self.k {
+                phase = 0;
+            }
         }
         let (k, chans) = (self.k, self.chans);
+        // The largest deviation so far, carried through the first three
+        // channels.
+        let mut dev = deviation.as_deref().copied();
         for (c, (col, scale)) in cols.iter().zip(scales).enumerate() {
             let xs = &col[range.clone()];
             let mut sum = self.sums[c];
             let mut pos = self.pos;
-            let mut dev = deviation.as_deref().copied().filter(|_| c < 3);
+            let track = c < 3 && dev.is_some();
             for (j, (x, w)) in xs.iter().zip(rotations.iter()).enumerate() {
                 let x = x * scale;
                 let at = pos * chans + c;
                 let old = self.ring[at];
-                if let Some(d) = &mut dev {
-                    let dv = (x - old).abs();
-                    if dv > *d {
-                        *d = dv;
+                if track {
+                    if let Some(d) = &mut dev {
+                        let dv = (x - old).abs();
+                        if dv > *d {
+                            *d = dv;
+                        }
                     }
                 }
                 // The rotation stored k samples ago: this run's own when it
@@ -243,9 +245,9 @@ impl SlidingDft {
                 }
             }
             self.sums[c] = sum;
-            if let (Some(d), Some(out)) = (dev, deviation.as_deref_mut()) {
-                *out = d;
-            }
+        }
+        if let (Some(d), Some(out)) = (dev, deviation) {
+            *out = d;
         }
         for w in rotations.iter() {
             self.rot[self.pos] = *w;
@@ -257,9 +259,6 @@ impl SlidingDft {
         self.scratch = rotations;
         self.n += len as u64;
         self.phase = phase;
-        if self.table.is_none() {
-            self.phase = (self.n % self.k as u64) as usize;
-        }
         self.fill += len as u64;
         self.since_refresh += len;
         if self.since_refresh >= self.refresh_every {

@@ -166,37 +166,17 @@ impl<'a> Decoder<'a> {
     }
 }
 
-/// One value of a mapped channel in a binary record `b`.
-fn binary_value(b: &[u8], m: &Mapped, dt: DataType, na: usize) -> f64 {
-    let ab = dt.analog_bytes();
-    let four = |o: usize| [b[o], b[o + 1], b[o + 2], b[o + 3]];
-    if let Some(i) = m.analog {
-        let o = 8 + i * ab;
-        match dt {
-            DataType::Binary => {
-                let x = i16::from_le_bytes([b[o], b[o + 1]]);
-                if x == i16::MIN {
-                    f64::NAN
-                } else {
-                    x as f64
-                }
-            }
-            DataType::Binary32 => {
-                let x = i32::from_le_bytes(four(o));
-                if x == i32::MIN {
-                    f64::NAN
-                } else {
-                    x as f64
-                }
-            }
-            _ => f32::from_le_bytes(four(o)) as f64,
+/// A status channel's bit in a binary record `b` (NaN for a mapped channel
+/// that is neither analog nor status); analog values are decoded field by
+/// field in [`Binary::read`].
+fn status_value(b: &[u8], m: &Mapped, dt: DataType, na: usize) -> f64 {
+    match m.digital {
+        Some(d) => {
+            let o = 8 + na * dt.analog_bytes() + 2 * (d / 16);
+            let w = u16::from_le_bytes([b[o], b[o + 1]]);
+            ((w >> (d % 16)) & 1) as f64
         }
-    } else if let Some(d) = m.digital {
-        let o = 8 + na * ab + 2 * (d / 16);
-        let w = u16::from_le_bytes([b[o], b[o + 1]]);
-        ((w >> (d % 16)) & 1) as f64
-    } else {
-        f64::NAN
+        None => f64::NAN,
     }
 }
 
@@ -309,7 +289,7 @@ impl Binary {
                             .map(|b| f64::from(f32::from_bits(u32_at(b, o)))),
                     );
                 }
-                (None, _) => col.extend(records.clone().map(|b| binary_value(b, m, dt, na))),
+                (None, _) => col.extend(records.clone().map(|b| status_value(b, m, dt, na))),
             }
         }
         Ok(n)
