@@ -1,31 +1,31 @@
 //! Decoding on one thread and the sink on another: an importer that decodes
 //! sequentially (COMTRADE) streams into a forwarding sink on a worker
 //! thread, while the calling thread hands the blocks to the real sink (the
-//! analysis). Blocks are copied once (a few hundred kilobytes each) and
-//! their buffers come back for reuse.
+//! analysis). A block given away whole ([`FrameSink::block_owned`]) travels
+//! as it is; any other is copied once (a few hundred kilobytes). Buffers
+//! come back for reuse.
 
-use crate::model::{Block, FrameSink, N_KEYS};
+use crate::model::{Block, FrameSink, OwnedBlock};
 use std::sync::mpsc::{channel, sync_channel, Receiver, Sender, SyncSender};
 
-/// A block owned by the channel between the threads.
-#[derive(Default)]
-struct Owned {
-    time: Vec<f64>,
-    /// Channel key index and values, in the block's order.
-    channels: Vec<(usize, Vec<f64>)>,
-}
-
 enum Message {
-    Block(Owned),
+    Block(OwnedBlock),
     Gap,
 }
 
-/// The worker's sink: copies each block into a recycled buffer and sends it.
+/// The worker's sink: sends each block, copied into a recycled buffer when
+/// it is only lent.
 struct Forward {
     tx: SyncSender<Message>,
-    recycled: Receiver<Owned>,
+    recycled: Receiver<OwnedBlock>,
     /// The consumer has gone: further blocks are dropped.
     closed: bool,
+}
+
+impl Forward {
+    fn buffers(&self) -> OwnedBlock {
+        self.recycled.try_recv().unwrap_or_default()
+    }
 }
 
 impl FrameSink for Forward {
@@ -33,23 +33,39 @@ impl FrameSink for Forward {
         if self.closed {
             return;
         }
-        let mut o = self.recycled.try_recv().unwrap_or_default();
+        let mut o = self.buffers();
         o.time.clear();
         o.time.extend_from_slice(block.time);
+        o.keys.clear();
         let mut used = 0;
         for (key, values) in block.channels.iter().enumerate() {
             let Some(values) = values else { continue };
-            if used == o.channels.len() {
-                o.channels.push((key, Vec::new()));
+            if used == o.cols.len() {
+                o.cols.push(Vec::new());
             }
-            let slot = &mut o.channels[used];
-            slot.0 = key;
-            slot.1.clear();
-            slot.1.extend_from_slice(values);
+            o.keys.push(key);
+            o.cols[used].clear();
+            o.cols[used].extend_from_slice(values);
             used += 1;
         }
-        o.channels.truncate(used);
+        o.cols.truncate(used);
         self.closed = self.tx.send(Message::Block(o)).is_err();
+    }
+
+    fn block_owned(&mut self, block: OwnedBlock) -> OwnedBlock {
+        if self.closed {
+            return block;
+        }
+        match self.tx.send(Message::Block(block)) {
+            Ok(()) => self.buffers(),
+            Err(back) => {
+                self.closed = true;
+                match back.0 {
+                    Message::Block(b) => b,
+                    Message::Gap => OwnedBlock::default(),
+                }
+            }
+        }
     }
 
     fn gap(&mut self) {
@@ -68,7 +84,7 @@ pub fn ahead<T: Send>(
 ) -> T {
     // Two blocks in flight keep both threads busy.
     let (tx, rx) = sync_channel::<Message>(2);
-    let (back, recycled) = channel::<Owned>();
+    let (back, recycled) = channel::<OwnedBlock>();
     std::thread::scope(|scope| {
         let worker = scope.spawn(move || {
             let mut forward = Forward {
@@ -86,19 +102,12 @@ pub fn ahead<T: Send>(
     })
 }
 
-fn consume(rx: &Receiver<Message>, back: &Sender<Owned>, sink: &mut dyn FrameSink) {
+fn consume(rx: &Receiver<Message>, back: &Sender<OwnedBlock>, sink: &mut dyn FrameSink) {
     for m in rx {
         match m {
             Message::Gap => sink.gap(),
             Message::Block(o) => {
-                let mut channels: [Option<&[f64]>; N_KEYS] = [None; N_KEYS];
-                for (key, values) in &o.channels {
-                    channels[*key] = Some(values);
-                }
-                sink.block(&Block {
-                    time: &o.time,
-                    channels,
-                });
+                sink.block(&o.view());
                 let _ = back.send(o);
             }
         }
@@ -108,7 +117,7 @@ fn consume(rx: &Receiver<Message>, back: &Sender<Owned>, sink: &mut dyn FrameSin
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::model::ChannelKey;
+    use crate::model::{ChannelKey, N_KEYS};
 
     /// Records what reaches it: block lengths, first values and gaps.
     #[derive(Default)]
@@ -127,6 +136,7 @@ mod tests {
 
     fn produce(sink: &mut dyn FrameSink) -> usize {
         let mut sent = 0;
+        let mut spare = OwnedBlock::default();
         for k in 0..50 {
             let t: Vec<f64> = (0..k % 7 + 1).map(|i| (k * 10 + i) as f64).collect();
             let v: Vec<f64> = t.iter().map(|x| x * 2.0).collect();
@@ -135,7 +145,27 @@ mod tests {
             if k % 3 == 0 {
                 channels[ChannelKey::Status.index()] = Some(&t);
             }
-            sink.block(&Block { time: &t, channels });
+            if k % 2 == 0 {
+                sink.block(&Block { time: &t, channels });
+            } else {
+                // Given away whole, into whatever buffers came back.
+                let mut o = std::mem::take(&mut spare);
+                o.time.clear();
+                o.time.extend_from_slice(&t);
+                o.keys.clear();
+                o.cols.resize_with(2, Vec::new);
+                o.keys.push(ChannelKey::Va.index());
+                o.cols[0].clear();
+                o.cols[0].extend_from_slice(&v);
+                if k % 3 == 0 {
+                    o.keys.push(ChannelKey::Status.index());
+                    o.cols[1].clear();
+                    o.cols[1].extend_from_slice(&t);
+                } else {
+                    o.cols.truncate(1);
+                }
+                spare = sink.block_owned(o);
+            }
             if k % 11 == 5 {
                 sink.gap();
             }

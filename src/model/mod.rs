@@ -452,9 +452,42 @@ impl Block<'_> {
     }
 }
 
+/// A block that owns its buffers, so that it can be handed over whole
+/// (see [`FrameSink::block_owned`]).
+#[derive(Default, Debug)]
+pub struct OwnedBlock {
+    pub time: Vec<f64>,
+    /// Channel key index of each column.
+    pub keys: Vec<usize>,
+    /// One column per key, each as long as `time`.
+    pub cols: Vec<Vec<f64>>,
+}
+
+impl OwnedBlock {
+    /// The block as slices; a key given twice takes its last column.
+    pub fn view(&self) -> Block<'_> {
+        let mut channels: [Option<&[f64]>; N_KEYS] = [None; N_KEYS];
+        for (key, col) in self.keys.iter().zip(&self.cols) {
+            channels[*key] = Some(col);
+        }
+        Block {
+            time: &self.time,
+            channels,
+        }
+    }
+}
+
 /// Consumer of sample blocks, in time order.
 pub trait FrameSink {
     fn block(&mut self, block: &Block<'_>);
+    /// A block given away whole: a sink that hands blocks to another thread
+    /// takes the buffers instead of copying them. Returns buffers for the
+    /// next block (their lengths and contents are to be overwritten); by
+    /// default the same, after [`FrameSink::block`].
+    fn block_owned(&mut self, block: OwnedBlock) -> OwnedBlock {
+        self.block(&block.view());
+        block
+    }
     /// The next block does not follow the previous one without a break
     /// (samples between them were skipped, e.g. a segment recorded at
     /// another sampling rate): windows over samples start afresh.

@@ -606,3 +606,105 @@ fn errors_of_binary_records_come_in_record_order() {
         "sample 12 of channel 'UA' is missing",
     );
 }
+
+/// Keeps the sample times, the values of Va and the status, and where the
+/// breaks fall.
+#[derive(Default)]
+struct Timed {
+    time: Vec<f64>,
+    va: Vec<f64>,
+    status: Vec<f64>,
+    gaps: Vec<usize>,
+}
+
+impl holdfast::model::FrameSink for Timed {
+    fn block(&mut self, b: &holdfast::model::Block<'_>) {
+        self.time.extend_from_slice(b.time);
+        self.va
+            .extend_from_slice(b.channels[ChannelKey::Va.index()].unwrap());
+        self.status
+            .extend_from_slice(b.channels[ChannelKey::Status.index()].unwrap());
+    }
+    fn gap(&mut self) {
+        self.gaps.push(self.time.len());
+    }
+}
+
+#[test]
+fn several_rates_are_timed_by_their_segments_across_blocks() {
+    // Three rate segments (IEEE C37.111-2013 7.4.7: samp, endsamp counted
+    // over the whole file) long enough to span blocks of records: 20 000
+    // samples at 1000 Hz, 30 at 50 Hz (skipped: one DFT needs one rate),
+    // 20 000 at 1000 Hz. Sample n of segment k lies at the sum of the
+    // earlier segments' counts / rates plus (n − its first) / its rate.
+    let dir = tempfile::tempdir().unwrap();
+    let cfg = hand_written_cfg("BINARY").replace(
+        "1\r\n1000,3\r\n",
+        "3\r\n1000,20000\r\n50,20030\r\n1000,40030\r\n",
+    );
+    let raw_ua = |n: u32| ((n * 7) % 20_001) as i16 - 10_000;
+    let mut bin = Vec::new();
+    for n in 1..=40_030u32 {
+        bin.extend_from_slice(&n.to_le_bytes());
+        bin.extend_from_slice(&0u32.to_le_bytes());
+        for x in [raw_ua(n), 3, -5] {
+            bin.extend_from_slice(&x.to_le_bytes());
+        }
+        bin.extend_from_slice(&((n % 3 == 0) as u16).to_le_bytes());
+    }
+    std::fs::write(dir.path().join("m.cfg"), cfg).unwrap();
+    std::fs::write(dir.path().join("m.dat"), bin).unwrap();
+    let map = ChannelMap {
+        keys: vec![
+            (ChannelKey::Va, "UA".into()),
+            (ChannelKey::Vb, "UB".into()),
+            (ChannelKey::Vc, "UB".into()),
+            (ChannelKey::Status, "CB".into()),
+        ],
+        ..Default::default()
+    };
+    let analysed: Vec<u32> = (1..=20_000).chain(20_031..=40_030).collect();
+    let time = |n: u32| {
+        if n <= 20_000 {
+            (n - 1) as f64 / 1000.0
+        } else {
+            20_000.0 / 1000.0 + 30.0 / 50.0 + (n - 20_031) as f64 / 1000.0
+        }
+    };
+    // Clause 7.4.4: a·x + b, secondary values × primary/secondary.
+    let ua = |x: i16| (0.5 * x as f64 + 1.0) * 200.0 * 1e3;
+    for threads in [1, 0] {
+        let opts = ImportOptions {
+            threads,
+            ..Default::default()
+        };
+        let src = open(&dir.path().join("m.cfg"), &map, &opts).unwrap_or_else(|e| panic!("{e}"));
+        let mut got = Timed::default();
+        let info = src.stream(&mut got).unwrap_or_else(|e| panic!("{e}"));
+        assert_eq!(info.samples, 40_030, "threads {threads}");
+        assert_eq!(got.gaps, vec![20_000], "threads {threads}");
+        assert_eq!(got.time.len(), analysed.len(), "threads {threads}");
+        for (k, n) in analysed.iter().enumerate() {
+            assert!(
+                (got.time[k] - time(*n)).abs() < 1e-9,
+                "threads {threads}: sample {n} at {} s, not {} s",
+                got.time[k],
+                time(*n)
+            );
+            assert!((got.va[k] - ua(raw_ua(*n))).abs() < 1e-6, "sample {n}");
+            assert_eq!(got.status[k], (n % 3 == 0) as u8 as f64, "sample {n}");
+        }
+    }
+    // A sample-number jump deep in the second block is still found where
+    // it is.
+    let mut bin = std::fs::read(dir.path().join("m.dat")).unwrap();
+    let rec = 8 + 3 * 2 + 2;
+    let at = 30_000 - 1;
+    bin[at * rec..at * rec + 4].copy_from_slice(&31_000u32.to_le_bytes());
+    std::fs::write(dir.path().join("m.dat"), bin).unwrap();
+    inspect(&dir.path().join("m.cfg"))
+        .code(2)
+        .stderr(predicate::str::contains(
+            "sample number jumps from 29999 to 31000 at sample 30000",
+        ));
+}

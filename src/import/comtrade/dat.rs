@@ -9,7 +9,7 @@ use super::cfg::DataType;
 use super::{open_data, ComtradeSource, DataReader, Mapped, RateSegment};
 use crate::error::InputError;
 use crate::import::timebase::{StepCheck, StepProblem};
-use crate::model::{Block, FrameSink, RecordingInfo, N_KEYS};
+use crate::model::{Block, FrameSink, OwnedBlock, RecordingInfo, N_KEYS};
 use std::io::{BufRead, Read};
 
 const BLOCK: usize = 16_384;
@@ -154,16 +154,84 @@ impl<'a> Decoder<'a> {
             .map_err(|e| InputError::new(&self.src.data.path, format!("cannot read: {e}")))
     }
 
-    /// Reads up to `max` records into `raw` (cleared first); 0 at the end.
-    fn next(&mut self, max: usize, raw: &mut Raw) -> Result<usize, InputError> {
-        raw.clear(self.src.mapped.len());
+    /// Reads up to `max` records into `raw` and their values, scaled to
+    /// canonical units (NaN when missing), into `cols`, one per mapped
+    /// channel (all cleared first); 0 at the end.
+    fn next(
+        &mut self,
+        max: usize,
+        raw: &mut Raw,
+        cols: &mut Vec<Vec<f64>>,
+    ) -> Result<usize, InputError> {
+        let mapped = &self.src.mapped;
+        raw.clear(mapped.len());
+        cols.resize_with(mapped.len(), Vec::new);
+        for c in cols.iter_mut() {
+            c.clear();
+        }
         let n = match &mut self.reader {
-            Reader::Binary(b) => b.read(self.src, self.count, max, raw)?,
-            Reader::Ascii(a) => a.read(self.src, &self.field_col, max, raw)?,
+            // Decoded and scaled in one pass.
+            Reader::Binary(b) => b.read(self.src, self.count, max, raw, cols)?,
+            Reader::Ascii(a) => {
+                let n = a.read(self.src, &self.field_col, max, raw)?;
+                for ((m, x), y) in mapped.iter().zip(&raw.cols).zip(cols.iter_mut()) {
+                    y.extend(x.iter().map(|x| scale_value(m, *x)));
+                }
+                n
+            }
         };
         self.count += n as u64;
         Ok(n)
     }
+
+    /// The raw value of mapped channel `c` in record `k` of the block last
+    /// read (NaN when missing).
+    fn raw_value(&self, raw: &Raw, c: usize, k: usize) -> f64 {
+        match &self.reader {
+            Reader::Ascii(_) => raw.cols[c][k],
+            Reader::Binary(b) => {
+                let r = &b.buf[k * b.rec..(k + 1) * b.rec];
+                let m = &self.src.mapped[c];
+                let dt = self.src.cfg.data_type;
+                match m.analog {
+                    Some(i) => analog_raw(r, i, dt),
+                    None => status_value(r, m, dt, self.src.cfg.analogs.len()),
+                }
+            }
+        }
+    }
+}
+
+/// Analog channel `i`'s raw value in a binary record `b` (NaN when
+/// missing); inlined into the column loops of [`Binary::read`] with `dt`
+/// fixed there.
+#[inline(always)]
+fn analog_raw(b: &[u8], i: usize, dt: DataType) -> f64 {
+    match dt {
+        DataType::Binary => {
+            let o = 8 + 2 * i;
+            let x = i16::from_le_bytes([b[o], b[o + 1]]);
+            if x == i16::MIN {
+                f64::NAN
+            } else {
+                f64::from(x)
+            }
+        }
+        DataType::Binary32 => {
+            let x = u32_at(b, 8 + 4 * i) as i32;
+            if x == i32::MIN {
+                f64::NAN
+            } else {
+                f64::from(x)
+            }
+        }
+        _ => f64::from(f32::from_bits(u32_at(b, 8 + 4 * i))),
+    }
+}
+
+#[inline(always)]
+fn u32_at(b: &[u8], o: usize) -> u32 {
+    u32::from_le_bytes([b[o], b[o + 1], b[o + 2], b[o + 3]])
 }
 
 /// A status channel's bit in a binary record `b` (NaN for a mapped channel
@@ -209,6 +277,7 @@ impl Binary {
         count: u64,
         max: usize,
         raw: &mut Raw,
+        cols: &mut [Vec<f64>],
     ) -> Result<usize, InputError> {
         let filled = self.fill(src, max)?;
         let rec = self.rec;
@@ -245,7 +314,6 @@ impl Binary {
         }
         // Field by field over the records: each loop does one thing.
         let records = self.buf[..n * rec].chunks_exact(rec);
-        let u32_at = |b: &[u8], o: usize| u32::from_le_bytes([b[o], b[o + 1], b[o + 2], b[o + 3]]);
         raw.sample
             .extend(records.clone().map(|b| u64::from(u32_at(b, 0))));
         raw.stamp.extend(records.clone().map(|b| {
@@ -256,40 +324,30 @@ impl Binary {
                 f64::from(ts)
             }
         }));
-        for (c, m) in src.mapped.iter().enumerate() {
-            let col = &mut raw.cols[c];
+        for (m, col) in src.mapped.iter().zip(cols.iter_mut()) {
+            // The operations of `scale_value`, the data type fixed per loop.
+            let (a, b0, k) = (m.a, m.b, m.k);
             match (m.analog, dt) {
-                (Some(i), DataType::Binary) => {
-                    let o = 8 + 2 * i;
-                    col.extend(records.clone().map(|b| {
-                        let x = i16::from_le_bytes([b[o], b[o + 1]]);
-                        if x == i16::MIN {
-                            f64::NAN
-                        } else {
-                            f64::from(x)
-                        }
-                    }));
-                }
-                (Some(i), DataType::Binary32) => {
-                    let o = 8 + 4 * i;
-                    col.extend(records.clone().map(|b| {
-                        let x = u32_at(b, o) as i32;
-                        if x == i32::MIN {
-                            f64::NAN
-                        } else {
-                            f64::from(x)
-                        }
-                    }));
-                }
-                (Some(i), _) => {
-                    let o = 8 + 4 * i;
-                    col.extend(
-                        records
-                            .clone()
-                            .map(|b| f64::from(f32::from_bits(u32_at(b, o)))),
-                    );
-                }
-                (None, _) => col.extend(records.clone().map(|b| status_value(b, m, dt, na))),
+                (Some(i), DataType::Binary) => col.extend(
+                    records
+                        .clone()
+                        .map(|b| (a * analog_raw(b, i, DataType::Binary) + b0) * k),
+                ),
+                (Some(i), DataType::Binary32) => col.extend(
+                    records
+                        .clone()
+                        .map(|b| (a * analog_raw(b, i, DataType::Binary32) + b0) * k),
+                ),
+                (Some(i), _) => col.extend(
+                    records
+                        .clone()
+                        .map(|b| (a * analog_raw(b, i, DataType::Float32) + b0) * k),
+                ),
+                (None, _) => col.extend(
+                    records
+                        .clone()
+                        .map(|b| scale_value(m, status_value(b, m, dt, na))),
+                ),
             }
         }
         Ok(n)
@@ -485,7 +543,7 @@ fn stamp_unit(src: &ComtradeSource) -> f64 {
 pub(super) fn probe_step(src: &ComtradeSource) -> Result<f64, InputError> {
     let mut d = Decoder::new(src)?;
     let mut raw = Raw::default();
-    d.next(4096, &mut raw)?;
+    d.next(4096, &mut raw, &mut Vec::new())?;
     // Scaling by the (positive) unit keeps the median's place.
     let unit = stamp_unit(src);
     crate::import::timebase::median_step(&raw.stamp)
@@ -495,33 +553,6 @@ pub(super) fn probe_step(src: &ComtradeSource) -> Result<f64, InputError> {
         InputError::new(&src.data.path, "the sampling rate is 0 (timestamps) but fewer than two increasing timestamps were found")
             .hint("the recording needs timestamps or a sampling rate")
     })
-}
-
-/// Collected samples, handed to the sink block by block.
-struct Collector<'a> {
-    mapped: &'a [Mapped],
-    time: Vec<f64>,
-    cols: Vec<Vec<f64>>,
-}
-
-impl Collector<'_> {
-    fn flush(&mut self, sink: &mut dyn FrameSink) {
-        if self.time.is_empty() {
-            return;
-        }
-        let mut channels: [Option<&[f64]>; N_KEYS] = [None; N_KEYS];
-        for (c, m) in self.mapped.iter().enumerate() {
-            channels[m.key.index()] = Some(&self.cols[c]);
-        }
-        sink.block(&Block {
-            time: &self.time,
-            channels,
-        });
-        self.time.clear();
-        for c in self.cols.iter_mut() {
-            c.clear();
-        }
-    }
 }
 
 /// The time of each sample: from the rate segments, or from the
@@ -545,7 +576,22 @@ enum ClockStop {
     Uneven(String),
 }
 
-impl Clock<'_> {
+impl<'a> Clock<'a> {
+    fn new(src: &'a ComtradeSource) -> Self {
+        if src.segments.is_empty() {
+            Clock::Stamps {
+                unit: stamp_unit(src),
+                first: None,
+                steps: StepCheck::new(1.0 / src.info.sample_rate_hz, src.opts.step_tolerance),
+            }
+        } else {
+            Clock::Segments {
+                segs: &src.segments,
+                k: 0,
+            }
+        }
+    }
+
     /// Time of sample `sample_no` (1-based), and whether it is analysed.
     fn at(
         &mut self,
@@ -638,16 +684,6 @@ fn scale_value(m: &Mapped, x: f64) -> f64 {
     }
 }
 
-/// Every mapped channel of a block scaled, column by column (the tight loop
-/// the compiler vectorises), into `out`.
-fn scale_block(mapped: &[Mapped], raw: &Raw, n: usize, out: &mut Vec<Vec<f64>>) {
-    out.resize_with(mapped.len(), Vec::new);
-    for ((m, x), y) in mapped.iter().zip(&raw.cols).zip(out.iter_mut()) {
-        y.clear();
-        y.extend(x[..n].iter().map(|x| scale_value(m, *x)));
-    }
-}
-
 /// The first row from `from` on where [`scaled`] refuses a value (missing,
 /// or not finite after scaling) in any channel. A missing raw value scales
 /// to NaN or infinity, so the scaled values alone tell; each column is
@@ -669,6 +705,115 @@ struct Counted {
     max_deviation: f64,
 }
 
+/// The count and numbering of record `sample_no` (1-based) whose sample
+/// number is `got`, after one numbered `prev`: true for the one record more
+/// than announced (a recorder that counts endsamp from 0), which is read.
+fn numbering(
+    d: &Decoder<'_>,
+    sample_no: u64,
+    announced: u64,
+    prev: Option<u64>,
+    got: u64,
+) -> Result<bool, InputError> {
+    let extra = announced > 0 && sample_no > announced;
+    if extra && sample_no != announced + 1 {
+        return Err(d
+            .err(format!(
+                "the data holds more than the {announced} samples the configuration announces (endsamp)"
+            ))
+            .hint("check the last endsamp of the configuration"));
+    }
+    if let Some(p) = prev {
+        if got != p.wrapping_add(1) && got != (p + 1) % (1u64 << 32) {
+            return Err(d
+                .err(format!(
+                    "sample number jumps from {p} to {got} at sample {sample_no}"
+                ))
+                .hint("records are missing or out of order"));
+        }
+    }
+    Ok(extra)
+}
+
+/// Rows from here on that need no check of their own (see
+/// [`ordinary_rows`]), and the rate segment they lie in.
+struct Ordinary<'a> {
+    rows: usize,
+    segment: Option<&'a RateSegment>,
+}
+
+/// How many of the next rows (`samples`, their sample numbers, up to the
+/// first row with a refused value) are ordinary: timed by a rate segment,
+/// inside the segment and the announced samples, analysed as the rows
+/// before them (or not), numbered on from `prev` without a jump or a wrap.
+/// Anything else (the first row, a timestamp clock, a new segment) is left
+/// to the row-by-row checks.
+fn ordinary_rows<'a>(
+    clock: &Clock<'a>,
+    samples: &[u64],
+    prev: Option<u64>,
+    sample_no: u64,
+    announced: u64,
+    in_use: bool,
+) -> Ordinary<'a> {
+    let none = Ordinary {
+        rows: 0,
+        segment: None,
+    };
+    let (Clock::Segments { segs, k }, Some(prev)) = (clock, prev) else {
+        return none;
+    };
+    let sg = &segs[*k];
+    if sample_no < sg.first || sample_no > sg.last || sg.used != in_use {
+        return none;
+    }
+    let mut limit = (sg.last - sample_no + 1).min(samples.len() as u64);
+    if announced > 0 {
+        limit = limit.min(announced.saturating_sub(sample_no - 1));
+    }
+    let rows = samples[..limit as usize]
+        .iter()
+        .zip(prev + 1..)
+        .take_while(|(s, want)| **s == *want)
+        .count();
+    Ordinary {
+        rows,
+        segment: Some(sg),
+    }
+}
+
+/// What a block's rows come to, in order: runs of analysed rows and breaks.
+enum Piece {
+    Rows(std::ops::Range<usize>),
+    Gap,
+}
+
+/// Hands a block's pieces to the sink: a block analysed whole is given
+/// away with its buffers; returns the buffers for the next block.
+fn hand_over(block: OwnedBlock, pieces: &[Piece], sink: &mut dyn FrameSink) -> OwnedBlock {
+    if let [Piece::Rows(r)] = pieces {
+        if r.start == 0 && r.end == block.time.len() {
+            return sink.block_owned(block);
+        }
+    }
+    for p in pieces {
+        match p {
+            Piece::Gap => sink.gap(),
+            Piece::Rows(r) => {
+                let mut channels: [Option<&[f64]>; N_KEYS] = [None; N_KEYS];
+                for (key, col) in block.keys.iter().zip(&block.cols) {
+                    channels[*key] = Some(&col[r.clone()]);
+                }
+                sink.block(&Block {
+                    time: &block.time[r.clone()],
+                    channels,
+                });
+            }
+        }
+    }
+    block
+}
+
 /// Reads every record: sample numbers in sequence, times, scaled values.
 fn read_samples(
     src: &ComtradeSource,
@@ -676,23 +821,8 @@ fn read_samples(
     sink: &mut dyn FrameSink,
 ) -> Result<Counted, InputError> {
     let mut raw = Raw::default();
-    let mut out = Collector {
-        mapped: &src.mapped,
-        time: Vec::with_capacity(BLOCK),
-        cols: vec![Vec::with_capacity(BLOCK); src.mapped.len()],
-    };
-    let mut clock = if src.segments.is_empty() {
-        Clock::Stamps {
-            unit: stamp_unit(src),
-            first: None,
-            steps: StepCheck::new(1.0 / src.info.sample_rate_hz, src.opts.step_tolerance),
-        }
-    } else {
-        Clock::Segments {
-            segs: &src.segments,
-            k: 0,
-        }
-    };
+    let mut block = OwnedBlock::default();
+    let mut clock = Clock::new(src);
     let announced = src.cfg.total_samples;
     let mut c = Counted {
         index: 0,
@@ -703,53 +833,60 @@ fn read_samples(
     };
     let mut prev_n: Option<u64> = None;
     let mut in_use = true;
-    let mut scaled_cols: Vec<Vec<f64>> = Vec::new();
-    'blocks: loop {
-        let n = d.next(BLOCK, &mut raw)?;
+    let mut pieces: Vec<Piece> = Vec::new();
+    loop {
+        let n = d.next(BLOCK, &mut raw, &mut block.cols)?;
         if n == 0 {
             break;
         }
+        block.keys.clear();
+        block.keys.extend(src.mapped.iter().map(|m| m.key.index()));
+        block.time.clear();
+        pieces.clear();
         // Values are scaled for the whole block at once and handed on per
         // run of analysed rows; a row with a value that `scaled` refuses is
         // met in row order, so errors come in the same order as row by row.
-        scale_block(&src.mapped, &raw, n, &mut scaled_cols);
-        let mut refused = first_refused(&scaled_cols, 0, n);
-        // First row of the analysed run whose values are not handed on yet.
+        let mut refused = first_refused(&block.cols, 0, n);
+        // First row of the analysed run not in `pieces` yet.
         let mut run: Option<usize> = None;
-        let push_run = |out: &mut Collector<'_>, run: &mut Option<usize>, to: usize| {
-            if let Some(from) = run.take() {
-                for (col, y) in out.cols.iter_mut().zip(&scaled_cols) {
-                    col.extend_from_slice(&y[from..to]);
-                }
-            }
-        };
-        for k in 0..n {
+        let mut end = n;
+        let mut k = 0;
+        while k < n {
             let sample_no = c.index + 1;
+            let ordinary = ordinary_rows(
+                &clock,
+                &raw.sample[k..refused.unwrap_or(n)],
+                prev_n,
+                sample_no,
+                announced,
+                in_use,
+            );
+            if let (Some(sg), true) = (ordinary.segment, ordinary.rows > 0) {
+                // Rows that the checks below would pass without a word:
+                // their times in a tight loop (the same formula as
+                // `Clock::at`).
+                let m = ordinary.rows;
+                block.time.extend(
+                    (sample_no..sample_no + m as u64)
+                        .map(|no| sg.t0 + (no - sg.first) as f64 / sg.rate),
+                );
+                if in_use {
+                    run.get_or_insert(k);
+                }
+                c.index += m as u64;
+                c.last_t = block.time[k + m - 1];
+                prev_n = Some(raw.sample[k + m - 1]);
+                k += m;
+                continue;
+            }
             let place = |e: InputError| -> InputError {
                 match raw.line.get(k) {
                     Some(l) => e.line(*l),
                     None => e,
                 }
             };
-            if announced > 0 && sample_no > announced {
-                // One record more than announced (a recorder that counts
-                // endsamp from 0): read it, say so.
-                if sample_no != announced + 1 {
-                    return Err(place(d.err(format!(
-                        "the data holds more than the {announced} samples the configuration announces (endsamp)"
-                    )))
-                    .hint("check the last endsamp of the configuration"));
-                }
+            if numbering(d, sample_no, announced, prev_n, raw.sample[k]).map_err(place)? {
                 c.extra_record = true;
-            }
-            if let Some(p) = prev_n {
-                if raw.sample[k] != p.wrapping_add(1) && raw.sample[k] != (p + 1) % (1u64 << 32) {
-                    return Err(place(d.err(format!(
-                        "sample number jumps from {p} to {} at sample {sample_no}",
-                        raw.sample[k]
-                    )))
-                    .hint("records are missing or out of order"));
-                }
             }
             prev_n = Some(raw.sample[k]);
             let (t, used) = match clock.at(sample_no, raw.stamp[k], d, src.opts.partial) {
@@ -757,18 +894,20 @@ fn read_samples(
                 Err(ClockStop::Error(e)) => return Err(place(e)),
                 Err(ClockStop::Uneven(why)) => {
                     c.stopped = Some(why);
-                    push_run(&mut out, &mut run, k);
-                    out.flush(sink);
-                    break 'blocks;
+                    end = k;
+                    break;
                 }
             };
+            // Every row's time, analysed or not: the runs index into it.
+            block.time.push(t);
             if used != in_use {
-                // Hand over what was collected, then say whether the next
+                // What was collected goes first, then whether the next
                 // samples follow without a break.
-                push_run(&mut out, &mut run, k);
-                out.flush(sink);
+                if let Some(from) = run.take() {
+                    pieces.push(Piece::Rows(from..k));
+                }
                 if used && c.index > 0 {
-                    sink.gap();
+                    pieces.push(Piece::Gap);
                 }
                 in_use = used;
             }
@@ -778,20 +917,27 @@ fn read_samples(
                 if in_use {
                     // The error of the first channel refused, as row by row.
                     for (col, m) in src.mapped.iter().enumerate() {
-                        scaled(m, raw.cols[col][k], sample_no, d).map_err(place)?;
+                        scaled(m, d.raw_value(&raw, col, k), sample_no, d).map_err(place)?;
                     }
                 }
                 // A row that is not analysed may miss values.
-                refused = first_refused(&scaled_cols, k + 1, n);
+                refused = first_refused(&block.cols, k + 1, n);
             }
-            if !in_use {
-                continue;
+            if in_use {
+                run.get_or_insert(k);
             }
-            out.time.push(t);
-            run.get_or_insert(k);
+            k += 1;
         }
-        push_run(&mut out, &mut run, n);
-        out.flush(sink);
+        if let Some(from) = run.take() {
+            pieces.push(Piece::Rows(from..end));
+        }
+        for col in &mut block.cols {
+            col.truncate(end);
+        }
+        block = hand_over(block, &pieces, sink);
+        if c.stopped.is_some() {
+            break;
+        }
     }
     c.max_deviation = clock.max_deviation();
     Ok(c)
