@@ -1309,70 +1309,91 @@ struct Handover {
     pending_blank: Option<u64>,
 }
 
-/// Reader stage: sends regions that end at a line boundary (the last one at
-/// the end of the file); buffers come back through `recycle` for reuse.
+/// A file cut into regions of whole lines of about `CHUNK` bytes, every
+/// byte read hashed.
+struct Regions<'p> {
+    file: Hashing<File>,
+    /// Bytes read after the last line end of the previous region.
+    carry: Vec<u8>,
+    eof: bool,
+    done: bool,
+    path: &'p Path,
+}
+
+impl Regions<'_> {
+    /// The next region, in `buf` (its contents replaced, its memory
+    /// reused); `None` after the last.
+    fn next(&mut self, mut buf: Vec<u8>) -> Result<Option<Vec<u8>>, InputError> {
+        let path = self.path;
+        if buf.capacity() == 0 {
+            buf.reserve(CHUNK + (64 << 10));
+        }
+        while !self.done {
+            buf.clear();
+            buf.append(&mut self.carry);
+            loop {
+                if !self.eof && buf.len() < CHUNK {
+                    let want = CHUNK - buf.len();
+                    self.eof = fill(&mut self.file, &mut buf, want, path)?;
+                }
+                if self.eof {
+                    break;
+                }
+                match memchr::memrchr(b'\n', &buf) {
+                    Some(i) => {
+                        self.carry.extend_from_slice(&buf[i + 1..]);
+                        buf.truncate(i + 1);
+                        break;
+                    }
+                    None => {
+                        // A line longer than the chunk: read more, up to the limit.
+                        if buf.len() as u64 > MAX_LINE_BYTES {
+                            return Err(InputError::new(
+                                path,
+                                format!("a line is longer than {MAX_LINE_BYTES} bytes"),
+                            )
+                            .hint(
+                                "a recording has one sample per line; is this a CSV recording?",
+                            ));
+                        }
+                        let more = buf.len().max(CHUNK);
+                        self.eof = fill(&mut self.file, &mut buf, more, path)?;
+                    }
+                }
+            }
+            self.done = self.eof && self.carry.is_empty();
+            if !buf.is_empty() {
+                return Ok(Some(buf));
+            }
+        }
+        Ok(None)
+    }
+
+    /// The SHA-256 of every byte read.
+    fn digest(self) -> Option<String> {
+        self.file.finish().ok().map(|(d, _)| d)
+    }
+}
+
+/// Reader stage: the regions in order, then the digest; an error ends it.
 fn read_regions(
-    mut file: Hashing<File>,
-    first: Vec<u8>,
-    mut eof: bool,
-    path: &Path,
+    mut regions: Regions<'_>,
     tx: std::sync::mpsc::SyncSender<Result<Vec<u8>, InputError>>,
     recycle: std::sync::mpsc::Receiver<Vec<u8>>,
 ) -> Option<String> {
-    let mut carry = first;
     loop {
-        let mut buf = recycle
-            .try_recv()
-            .unwrap_or_else(|_| Vec::with_capacity(CHUNK + (64 << 10)));
-        buf.clear();
-        buf.append(&mut carry);
-        loop {
-            if !eof && buf.len() < CHUNK {
-                let want = CHUNK - buf.len();
-                match fill(&mut file, &mut buf, want, path) {
-                    Ok(e) => eof = e,
-                    Err(e) => {
-                        let _ = tx.send(Err(e));
-                        return None;
-                    }
+        let buf = recycle.try_recv().unwrap_or_default();
+        match regions.next(buf) {
+            Ok(Some(region)) => {
+                if tx.send(Ok(region)).is_err() {
+                    return None;
                 }
             }
-            if eof {
-                break;
+            Ok(None) => return regions.digest(),
+            Err(e) => {
+                let _ = tx.send(Err(e));
+                return None;
             }
-            match memchr::memrchr(b'\n', &buf) {
-                Some(i) => {
-                    carry.extend_from_slice(&buf[i + 1..]);
-                    buf.truncate(i + 1);
-                    break;
-                }
-                None => {
-                    // A line longer than the chunk: read more, up to the limit.
-                    if buf.len() as u64 > MAX_LINE_BYTES {
-                        let _ = tx.send(Err(InputError::new(
-                            path,
-                            format!("a line is longer than {MAX_LINE_BYTES} bytes"),
-                        )
-                        .hint("a recording has one sample per line; is this a CSV recording?")));
-                        return None;
-                    }
-                    let more = buf.len().max(CHUNK);
-                    match fill(&mut file, &mut buf, more, path) {
-                        Ok(e) => eof = e,
-                        Err(e) => {
-                            let _ = tx.send(Err(e));
-                            return None;
-                        }
-                    }
-                }
-            }
-        }
-        let done = eof && carry.is_empty();
-        if !buf.is_empty() && tx.send(Ok(buf)).is_err() {
-            return None;
-        }
-        if done {
-            return file.finish().ok().map(|(d, _)| d);
         }
     }
 }
@@ -1545,12 +1566,32 @@ impl Source for CsvSource {
         let (parsed_tx, parsed_rx) = std::sync::mpsc::sync_channel::<Parsed>(1);
         let (parts_tx, parts_rx) = std::sync::mpsc::channel::<Vec<Part>>();
         let mut digest: Option<String> = None;
-        std::thread::scope(|scope| -> Result<(), InputError> {
-            let reader = match file {
-                Some(file) => {
-                    let path = this.path.clone();
-                    Some(scope.spawn(move || read_regions(file, first, eof, &path, tx, recycle_rx)))
+        let regions = file.map(|file| Regions {
+            file,
+            carry: first,
+            eof,
+            done: false,
+            path: &this.path,
+        });
+        if threads == 1 {
+            // One thread (many files read at once): the same stages in turn
+            // on this thread, without starting any.
+            if let Some(mut regions) = regions {
+                let mut parts = vec![Part::default()];
+                let mut spare = Vec::new();
+                while let Some(region) = regions.next(spare)? {
+                    parts[0].reset(nslots);
+                    let results = vec![parse_region(&region, &this.layout, &mut parts[0])];
+                    this.hand_over(&mut parts, results, &mut state, &mut tc, sink)?;
+                    spare = region;
                 }
+                digest = regions.digest();
+            }
+            return self.finish(&tc, digest);
+        }
+        std::thread::scope(|scope| -> Result<(), InputError> {
+            let reader = match regions {
+                Some(regions) => Some(scope.spawn(move || read_regions(regions, tx, recycle_rx))),
                 None => {
                     drop(tx);
                     None
@@ -1575,6 +1616,13 @@ impl Source for CsvSource {
             }
             Ok(())
         })?;
+        self.finish(&tc, digest)
+    }
+}
+
+impl CsvSource {
+    /// What the stream found, after the last row.
+    fn finish(&self, tc: &TimeCheck, digest: Option<String>) -> Result<RecordingInfo, InputError> {
         let n = tc.count;
         if n < 2 {
             return Err(
