@@ -688,6 +688,14 @@ impl FrameSink for Analyzer {
     }
 }
 
+/// Of `counted` pushes with `since_out` counted before (of `decimation`
+/// per output point), the last that starts a decimation group (emits a
+/// point), counted from 0.
+fn decimated(since_out: usize, decimation: usize, counted: usize) -> Option<usize> {
+    let first = (decimation - since_out) % decimation;
+    (first < counted).then(|| first + (counted - 1 - first) / decimation * decimation)
+}
+
 /// The first sample of `range` (then the first channel) whose scaled value
 /// `cols[c][i] * scales[c]` is not finite; each channel is checked whole
 /// without branches first.
@@ -821,35 +829,33 @@ impl Analyzer {
             };
             let run = to_emit.min(d.until_refresh()).min(len - i);
             let range = i..i + run;
-            if self.problem.is_none() {
-                if let Some((k, c)) = first_unusable(cols, scales, range.clone()) {
-                    self.problem = Some((format!("channel {}", keys[c].name()), block.time[k]));
-                }
-            }
-            d.push_run(
+            let finite = d.push_run(
                 cols,
                 scales,
                 range.clone(),
                 ready.then_some(&mut self.deviation_max),
             );
+            if !finite && self.problem.is_none() {
+                if let Some((k, c)) = first_unusable(cols, scales, range.clone()) {
+                    self.problem = Some((format!("channel {}", keys[c].name()), block.time[k]));
+                }
+            }
             let ready_at_end = d.ready();
             if let Some(st) = status {
                 for v in &st[range] {
                     self.status_min = self.status_min.min(*v);
                 }
             }
-            let mut emit_at = None;
-            for j in 0..run {
-                if ready || (j + 1 == run && ready_at_end) {
-                    if self.since_out == 0 {
-                        emit_at = Some(i + j);
-                    }
-                    self.since_out += 1;
-                    if self.since_out >= self.decimation {
-                        self.since_out = 0;
-                    }
-                }
-            }
+            // The pushes that count towards the decimation: all of the run
+            // with a full window, else its last if that filled the window.
+            let (first, counted) = match (ready, ready_at_end) {
+                (true, _) => (0, run),
+                (false, true) => (run - 1, 1),
+                (false, false) => (0, 0),
+            };
+            let emit_at =
+                decimated(self.since_out, self.decimation, counted).map(|m| i + first + m);
+            self.since_out = (self.since_out + counted) % self.decimation;
             if let Some(k) = emit_at {
                 // Only the run's last push can emit (the run ends there).
                 self.emit_waveform(block.time[k]);
@@ -970,4 +976,34 @@ pub fn analyse(
     let mut analyzer = Analyzer::new(source.info(), settings)?;
     let info = source.stream(&mut analyzer)?;
     analyzer.finish(info)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::decimated;
+
+    #[test]
+    fn decimation_in_one_step_is_the_count_push_by_push() {
+        // Oracle: the push-by-push count (a point at each push that finds
+        // the group counter at 0).
+        for decimation in 1..=7 {
+            for since_out in 0..decimation {
+                for counted in 0..30 {
+                    let mut s = since_out;
+                    let mut last = None;
+                    for j in 0..counted {
+                        if s == 0 {
+                            last = Some(j);
+                        }
+                        s = (s + 1) % decimation;
+                    }
+                    assert_eq!(
+                        decimated(since_out, decimation, counted),
+                        last,
+                        "decimation {decimation}, since {since_out}, {counted} pushes"
+                    );
+                }
+            }
+        }
+    }
 }

@@ -35,7 +35,8 @@ pub struct SlidingDft {
     denom: f64,
     /// `e^(−jθm)` for `m mod K` when the window is a whole cycle.
     table: Option<Vec<Complex64>>,
-    /// Window samples, `k × chans`, oldest at `pos`.
+    /// Window samples, channel by channel (`chans` runs of `k`), oldest at
+    /// `pos` in each.
     ring: Vec<f64>,
     /// Rotation factor used for each sample in the window.
     rot: Vec<Complex64>,
@@ -118,7 +119,7 @@ impl SlidingDft {
     /// [`push`](Self::push), the sample one window length earlier.
     #[inline]
     pub fn oldest(&self, c: usize) -> f64 {
-        self.ring[self.pos * self.chans + c]
+        self.ring[c * self.k + self.pos]
     }
 
     /// True once the window is full and phasors are valid.
@@ -147,13 +148,13 @@ impl SlidingDft {
     #[inline]
     pub fn push(&mut self, x: &[f64]) {
         let w = self.rotation(self.n);
-        let base = self.pos * self.chans;
         let w_old = self.rot[self.pos];
         for c in 0..self.chans {
-            let old = self.ring[base + c];
+            let at = c * self.k + self.pos;
+            let old = self.ring[at];
             self.sums[c] += w * x[c] - w_old * old;
+            self.ring[at] = x[c];
         }
-        self.ring[base..base + self.chans].copy_from_slice(&x[..self.chans]);
         self.rot[self.pos] = w;
         self.pos += 1;
         if self.pos == self.k {
@@ -186,14 +187,16 @@ impl SlidingDft {
     /// channel as [`SlidingDft::push`] sample by sample, so the same sums.
     /// The run must not pass a refresh (see [`SlidingDft::until_refresh`]).
     /// With `deviation`, the largest |x − oldest| of the first three
-    /// channels is folded into it (for a full window).
+    /// channels is folded into it (for a full window). Returns false when a
+    /// running sum is not finite: a scaled sample of this run (or one still
+    /// in the window) was not, or the sums overflowed.
     pub fn push_run(
         &mut self,
         cols: &[&[f64]],
         scales: &[f64],
         range: std::ops::Range<usize>,
         deviation: Option<&mut f64>,
-    ) {
+    ) -> bool {
         let len = range.len();
         debug_assert!(len <= self.until_refresh() && cols.len() == self.chans);
         let mut rotations = std::mem::take(&mut self.scratch);
@@ -209,18 +212,46 @@ impl SlidingDft {
                 phase = 0;
             }
         }
-        let (k, chans) = (self.k, self.chans);
+        let k = self.k;
         // The largest deviation so far, carried through the first three
         // channels.
         let mut dev = deviation.as_deref().copied();
         for (c, (col, scale)) in cols.iter().zip(scales).enumerate() {
             let xs = &col[range.clone()];
             let mut sum = self.sums[c];
-            let mut pos = self.pos;
             let track = c < 3 && dev.is_some();
+            if len <= k {
+                // Every oldest rotation is a stored one: slices up to the
+                // ring's end and from its start, no index checks per sample.
+                let mut d = dev.unwrap_or(0.0);
+                let split = (k - self.pos).min(len);
+                let ring = &mut self.ring;
+                let (first, second) = (self.pos..self.pos + split, 0..len - split);
+                for (ring_at, from) in [(first, 0), (second, split)] {
+                    let n = ring_at.len();
+                    let args = Lane {
+                        xs: &xs[from..from + n],
+                        rotations: &rotations[from..from + n],
+                        slots: &mut ring[c * k + ring_at.start..c * k + ring_at.end],
+                        stored: &self.rot[ring_at],
+                        scale: *scale,
+                    };
+                    if track {
+                        args.push::<true>(&mut sum, &mut d);
+                    } else {
+                        args.push::<false>(&mut sum, &mut d);
+                    }
+                }
+                if track {
+                    dev = Some(d);
+                }
+                self.sums[c] = sum;
+                continue;
+            }
+            let mut pos = self.pos;
             for (j, (x, w)) in xs.iter().zip(rotations.iter()).enumerate() {
                 let x = x * scale;
-                let at = pos * chans + c;
+                let at = c * k + pos;
                 let old = self.ring[at];
                 if track {
                     if let Some(d) = &mut dev {
@@ -261,9 +292,16 @@ impl SlidingDft {
         self.phase = phase;
         self.fill += len as u64;
         self.since_refresh += len;
+        // A sum that took a value that is not finite stays so (NaN and
+        // infinity absorb additions) until a refresh: read before it.
+        let finite = self
+            .sums
+            .iter()
+            .all(|s| s.re.is_finite() && s.im.is_finite());
         if self.since_refresh >= self.refresh_every {
             self.refresh();
         }
+        finite
     }
 
     /// Recomputes the running sums exactly from the window.
@@ -272,7 +310,7 @@ impl SlidingDft {
         for c in 0..self.chans {
             let mut s = Complex64::new(0.0, 0.0);
             for i in 0..self.k {
-                s += self.rot[i] * self.ring[i * self.chans + c];
+                s += self.rot[i] * self.ring[c * self.k + i];
             }
             self.sums[c] = s;
         }
@@ -292,6 +330,43 @@ impl SlidingDft {
             (s * kf - g * s.conj()) / self.denom
         };
         coef * std::f64::consts::SQRT_2
+    }
+}
+
+/// One channel's samples over a stretch of the ring that does not wrap.
+struct Lane<'a> {
+    xs: &'a [f64],
+    /// Each new sample's rotation.
+    rotations: &'a [Complex64],
+    /// The channel's ring slots the samples go into.
+    slots: &'a mut [f64],
+    /// The rotation stored with each slot's oldest sample.
+    stored: &'a [Complex64],
+    scale: f64,
+}
+
+impl Lane<'_> {
+    /// The operations of [`SlidingDft::push`] per sample, in its order.
+    #[inline(always)]
+    fn push<const TRACK: bool>(self, sum: &mut Complex64, dev: &mut f64) {
+        let n = self.xs.len();
+        let (rotations, slots, stored) = (
+            &self.rotations[..n],
+            &mut self.slots[..n],
+            &self.stored[..n],
+        );
+        for i in 0..n {
+            let x = self.xs[i] * self.scale;
+            let old = slots[i];
+            if TRACK {
+                let dv = (x - old).abs();
+                if dv > *dev {
+                    *dev = dv;
+                }
+            }
+            *sum += rotations[i] * x - stored[i] * old;
+            slots[i] = x;
+        }
     }
 }
 

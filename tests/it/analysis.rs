@@ -485,6 +485,36 @@ fn non_finite_samples_are_refused_with_the_channel() {
         "{}",
         e.message
     );
+    // The first in time is named, then the first channel: NaN and
+    // infinities, before the window is full and after, alone and together.
+    for (bad, want) in [
+        (
+            vec![(2, 1500, f64::NAN), (1, 700, f64::INFINITY)],
+            "vb at 0.140000",
+        ),
+        (vec![(2, 30, f64::NAN), (0, 31, f64::NAN)], "vc at 0.006000"),
+        (
+            vec![(2, 999, f64::NEG_INFINITY), (0, 999, f64::NAN)],
+            "va at 0.199800",
+        ),
+        (vec![(0, 1999, f64::NAN)], "va at 0.399800"),
+    ] {
+        let mut cols = balanced(1.0, f, fs, 2_000);
+        for (c, i, x) in &bad {
+            cols[*c][*i] = *x;
+        }
+        let e = analyse_keys(
+            &keys,
+            &cols,
+            fs,
+            f,
+            Connection::PhaseToNeutral,
+            PhaseOrder::Abc,
+        )
+        .err()
+        .unwrap_or_else(|| panic!("{bad:?} must be refused"));
+        assert!(e.message.contains(want), "{bad:?}: {}", e.message);
+    }
     // Fewer samples than one window (100 at 5 kHz): no analysed point.
     let short: Vec<Vec<f64>> = balanced(1.0, f, fs, 60);
     let a = analyse_keys(

@@ -210,7 +210,7 @@ fn analog_raw(b: &[u8], i: usize, dt: DataType) -> f64 {
     match dt {
         DataType::Binary => {
             let o = 8 + 2 * i;
-            let x = i16::from_le_bytes([b[o], b[o + 1]]);
+            let x = u16_at(b, o) as i16;
             if x == i16::MIN {
                 f64::NAN
             } else {
@@ -230,8 +230,16 @@ fn analog_raw(b: &[u8], i: usize, dt: DataType) -> f64 {
 }
 
 #[inline(always)]
+fn u16_at(b: &[u8], o: usize) -> u16 {
+    let two: [u8; 2] = b[o..o + 2].try_into().unwrap_or_default();
+    u16::from_le_bytes(two)
+}
+
+#[inline(always)]
 fn u32_at(b: &[u8], o: usize) -> u32 {
-    u32::from_le_bytes([b[o], b[o + 1], b[o + 2], b[o + 3]])
+    // One check of the four bytes, then one load.
+    let four: [u8; 4] = b[o..o + 4].try_into().unwrap_or_default();
+    u32::from_le_bytes(four)
 }
 
 /// A status channel's bit in a binary record `b` (NaN for a mapped channel
@@ -241,7 +249,7 @@ fn status_value(b: &[u8], m: &Mapped, dt: DataType, na: usize) -> f64 {
     match m.digital {
         Some(d) => {
             let o = 8 + na * dt.analog_bytes() + 2 * (d / 16);
-            let w = u16::from_le_bytes([b[o], b[o + 1]]);
+            let w = u16_at(b, o);
             ((w >> (d % 16)) & 1) as f64
         }
         None => f64::NAN,
