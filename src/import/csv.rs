@@ -1533,7 +1533,8 @@ impl Source for CsvSource {
         // thread checks time and hands the regions parsed before to the sink
         // (no stage waits for another to finish a region unless it is a
         // region ahead). One parser more than cores: the reader (which also
-        // hashes) and this thread take turns with them.
+        // hashes) and this thread take turns with them. With one thread the
+        // stages take turns on this thread.
         let threads = match self.opts.threads {
             0 => std::thread::available_parallelism()
                 .map(|n| n.get() + 1)
@@ -1559,12 +1560,6 @@ impl Source for CsvSource {
             line_base: this.first_data_line,
             pending_blank: None,
         };
-        // Stages run ahead of the next one by one region (4 MB) each: every
-        // stage stays busy without holding much.
-        let (tx, rx) = std::sync::mpsc::sync_channel::<Result<Vec<u8>, InputError>>(1);
-        let (recycle_tx, recycle_rx) = std::sync::mpsc::channel::<Vec<u8>>();
-        let (parsed_tx, parsed_rx) = std::sync::mpsc::sync_channel::<Parsed>(1);
-        let (parts_tx, parts_rx) = std::sync::mpsc::channel::<Vec<Part>>();
         let mut digest: Option<String> = None;
         let regions = file.map(|file| Regions {
             file,
@@ -1589,6 +1584,12 @@ impl Source for CsvSource {
             }
             return self.finish(&tc, digest);
         }
+        // Stages run ahead of the next one by one region (4 MB) each: every
+        // stage stays busy without holding much.
+        let (tx, rx) = std::sync::mpsc::sync_channel::<Result<Vec<u8>, InputError>>(1);
+        let (recycle_tx, recycle_rx) = std::sync::mpsc::channel::<Vec<u8>>();
+        let (parsed_tx, parsed_rx) = std::sync::mpsc::sync_channel::<Parsed>(1);
+        let (parts_tx, parts_rx) = std::sync::mpsc::channel::<Vec<Part>>();
         std::thread::scope(|scope| -> Result<(), InputError> {
             let reader = match regions {
                 Some(regions) => Some(scope.spawn(move || read_regions(regions, tx, recycle_rx))),

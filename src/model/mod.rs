@@ -466,12 +466,17 @@ pub struct OwnedBlock {
 impl OwnedBlock {
     /// The block as slices; a key given twice takes its last column.
     pub fn view(&self) -> Block<'_> {
+        self.rows(0..self.time.len())
+    }
+
+    /// Rows `r` of the block as slices, as [`OwnedBlock::view`].
+    pub fn rows(&self, r: std::ops::Range<usize>) -> Block<'_> {
         let mut channels: [Option<&[f64]>; N_KEYS] = [None; N_KEYS];
         for (key, col) in self.keys.iter().zip(&self.cols) {
-            channels[*key] = Some(col);
+            channels[*key] = Some(&col[r.clone()]);
         }
         Block {
-            time: &self.time,
+            time: &self.time[r],
             channels,
         }
     }

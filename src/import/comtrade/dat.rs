@@ -9,7 +9,7 @@ use super::cfg::DataType;
 use super::{open_data, ComtradeSource, DataReader, Mapped, RateSegment};
 use crate::error::InputError;
 use crate::import::timebase::{StepCheck, StepProblem};
-use crate::model::{Block, FrameSink, OwnedBlock, RecordingInfo, N_KEYS};
+use crate::model::{FrameSink, OwnedBlock, RecordingInfo};
 use std::io::{BufRead, Read};
 
 const BLOCK: usize = 16_384;
@@ -666,11 +666,7 @@ fn scaled(m: &Mapped, x: f64, sample_no: u64, d: &Decoder<'_>) -> Result<f64, In
         ))
         .hint("the phasor analysis needs every sample: cut the recording before the gap or fill it"));
     }
-    let y = if m.digital.is_some() {
-        x
-    } else {
-        (m.a * x + m.b) * m.k
-    };
+    let y = scale_value(m, x);
     if !y.is_finite() {
         return Err(d.err(format!(
             "sample {sample_no} of channel '{}' is not a finite number after scaling (a·x + b, ratios): {x} raw",
@@ -743,15 +739,9 @@ fn numbering(
     Ok(extra)
 }
 
-/// Rows from here on that need no check of their own (see
-/// [`ordinary_rows`]), and the rate segment they lie in.
-struct Ordinary<'a> {
-    rows: usize,
-    segment: Option<&'a RateSegment>,
-}
-
 /// How many of the next rows (`samples`, their sample numbers, up to the
-/// first row with a refused value) are ordinary: timed by a rate segment,
+/// first row with a refused value) are ordinary, and the rate segment they
+/// lie in (`None` for none): timed by a rate segment,
 /// inside the segment and the announced samples, analysed as the rows
 /// before them (or not), numbered on from `prev` without a jump or a wrap.
 /// Anything else (the first row, a timestamp clock, a new segment) is left
@@ -763,17 +753,13 @@ fn ordinary_rows<'a>(
     sample_no: u64,
     announced: u64,
     in_use: bool,
-) -> Ordinary<'a> {
-    let none = Ordinary {
-        rows: 0,
-        segment: None,
-    };
+) -> Option<(usize, &'a RateSegment)> {
     let (Clock::Segments { segs, k }, Some(prev)) = (clock, prev) else {
-        return none;
+        return None;
     };
     let sg = &segs[*k];
     if sample_no < sg.first || sample_no > sg.last || sg.used != in_use {
-        return none;
+        return None;
     }
     let mut limit = (sg.last - sample_no + 1).min(samples.len() as u64);
     if announced > 0 {
@@ -784,10 +770,7 @@ fn ordinary_rows<'a>(
         .zip(prev + 1..)
         .take_while(|(s, want)| **s == *want)
         .count();
-    Ordinary {
-        rows,
-        segment: Some(sg),
-    }
+    (rows > 0).then_some((rows, sg))
 }
 
 /// What a block's rows come to, in order: runs of analysed rows and breaks.
@@ -807,16 +790,7 @@ fn hand_over(block: OwnedBlock, pieces: &[Piece], sink: &mut dyn FrameSink) -> O
     for p in pieces {
         match p {
             Piece::Gap => sink.gap(),
-            Piece::Rows(r) => {
-                let mut channels: [Option<&[f64]>; N_KEYS] = [None; N_KEYS];
-                for (key, col) in block.keys.iter().zip(&block.cols) {
-                    channels[*key] = Some(&col[r.clone()]);
-                }
-                sink.block(&Block {
-                    time: &block.time[r.clone()],
-                    channels,
-                });
-            }
+            Piece::Rows(r) => sink.block(&block.rows(r.clone())),
         }
     }
     block
@@ -861,19 +835,17 @@ fn read_samples(
         let mut k = 0;
         while k < n {
             let sample_no = c.index + 1;
-            let ordinary = ordinary_rows(
+            if let Some((m, sg)) = ordinary_rows(
                 &clock,
                 &raw.sample[k..refused.unwrap_or(n)],
                 prev_n,
                 sample_no,
                 announced,
                 in_use,
-            );
-            if let (Some(sg), true) = (ordinary.segment, ordinary.rows > 0) {
+            ) {
                 // Rows that the checks below would pass without a word:
                 // their times in a tight loop (the same formula as
                 // `Clock::at`).
-                let m = ordinary.rows;
                 block.time.extend(
                     (sample_no..sample_no + m as u64)
                         .map(|no| sg.t0 + (no - sg.first) as f64 / sg.rate),
